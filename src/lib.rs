@@ -11,5 +11,7 @@ extern crate std;
 
 pub mod flags;
 pub mod math;
+pub mod photometry;
 
 pub use flags::{Flag, Flags};
+pub use photometry::{Absorbance, Transmittance};

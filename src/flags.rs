@@ -79,12 +79,16 @@ impl Flag {
         match self {
             Flag::Saturated => "detector saturated: lower the LED drive or the gain and repeat",
             Flag::LowSignal => "absorbance too high to measure: dilute and repeat",
-            Flag::Unstable => "reads drifted or scattered: check for bubbles, let the LED warm up, repeat",
+            Flag::Unstable => {
+                "reads drifted or scattered: check for bubbles, let the LED warm up, repeat"
+            }
             Flag::NoDark => "no dark reads: result assumes zero dark level",
             Flag::NoBlank => "no blank on this channel: measure a blank first",
             Flag::AboveRange => "above the highest standard: dilute and repeat",
             Flag::BelowLod => "below the limit of detection: report as not detected",
-            Flag::BelowLoq => "below the limit of quantification: report as detected, not quantified",
+            Flag::BelowLoq => {
+                "below the limit of quantification: report as detected, not quantified"
+            }
             Flag::NoCalibration => "no calibration on this channel: read standards first",
             Flag::StaleCalibration => "calibration is stale or from other settings: recalibrate",
         }

@@ -4,14 +4,28 @@
 #![no_std]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
-#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used, clippy::panic))]
+#![cfg_attr(
+    not(test),
+    deny(clippy::unwrap_used, clippy::expect_used, clippy::panic)
+)]
 
 #[cfg(any(feature = "std", test))]
 extern crate std;
 
+pub mod accumulator;
+pub mod counts;
 pub mod flags;
 pub mod math;
+pub mod net_signal;
 pub mod photometry;
+pub mod robust;
 
+pub use accumulator::{AccumulateError, ReadAccumulator, ReadStats};
+pub use counts::{FullScale, MAX_COUNT};
 pub use flags::{Flag, Flags};
-pub use photometry::{Absorbance, Transmittance};
+pub use net_signal::{DarkLitSeries, Level, NetSignal, NetSignalError, SeriesConfig};
+pub use photometry::{
+    photometric_result, Absorbance, PhotometricResult, PhotometryConfig, PhotometryError,
+    StrayFraction, Transmittance,
+};
+pub use robust::{RobustBuffer, RobustEstimate};

@@ -113,7 +113,11 @@ mod tests {
     #[test]
     fn decade_logs() {
         // Common practice (definition of the decadic logarithm): log10(10) = 1, log10(100) = 2.
-        let tol = if cfg!(feature = "fast-math") { 1e-2 } else { 1e-6 };
+        let tol = if cfg!(feature = "fast-math") {
+            1e-2
+        } else {
+            1e-6
+        };
         assert!((log10f(10.0) - 1.0).abs() < tol);
         assert!((log10f(100.0) - 2.0).abs() < tol);
         assert!((exp10f(2.0) - 100.0).abs() < 100.0 * tol);

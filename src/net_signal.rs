@@ -1,0 +1,484 @@
+//! Interleaved dark and lit reads: the dark-corrected net signal of one measurement.
+//!
+//! A measurement alternates reads with the LED off (dark: detector offset, dark current,
+//! ambient light leaking in) and on (lit). Interleaving makes a slow dark drift fall equally on
+//! both, so it cancels in the difference. [`DarkLitSeries`] takes the reads of the measuring
+//! detector and, where fitted, of the reference detector that watches the LED before the
+//! cuvette, and [`DarkLitSeries::finish`] gives a [`NetSignal`]:
+//!
+//! * level = lit location - dark location, for each detector;
+//! * location: the robust Huber estimate of [`crate::robust`] while at most `N` reads of that
+//!   kind were taken, the plain mean beyond (the buffer keeps the first `N` only);
+//! * standard error u(net) = sqrt(u(lit)² + u(dark)²), each the standard error of its location;
+//! * flags: [`Flag::Saturated`] when a lit read reached full scale, [`Flag::NoDark`] when no
+//!   dark read was taken (the dark level is then taken as zero, with zero uncertainty),
+//!   [`Flag::Unstable`] when the reads drifted beyond what their noise explains (below).
+//!
+//! # Drift check
+//! Each stream keeps its least-squares trend ([`crate::accumulator::Trend`]). The change of the
+//! net level across the measurement is Δ = Δ_lit - Δ_dark (each slope × (n - 1), so lit and dark
+//! streams of the same time span compare whatever their read counts), with standard error
+//! u(Δ) from the slopes' standard errors. With a reference detector, the *relative* change of the
+//! signal/reference ratio is tested instead, so LED drift that the reference follows is not
+//! called instability. `Unstable` is raised when |Δ| / u(Δ) exceeds
+//! [`SeriesConfig::drift_t_limit`] (default 4: a false alarm about once in 16 000 stable
+//! measurements for Gaussian noise), or when the robust estimate had to reject more than
+//! [`SeriesConfig::max_rejected_fraction`] of the lit reads (scatter beyond noise).
+
+use core::fmt;
+
+use crate::accumulator::{AccumulateError, ReadAccumulator, ReadStats, Trend};
+use crate::counts::FullScale;
+use crate::flags::{Flag, Flags};
+use crate::math;
+use crate::robust::RobustBuffer;
+
+/// Error feeding or finishing a [`DarkLitSeries`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum NetSignalError {
+    /// No lit read was taken: there is no signal.
+    NoLitReads,
+    /// A read of the measuring detector exceeds its full scale.
+    SignalAboveFullScale {
+        /// The offending read.
+        read: u32,
+    },
+    /// A read of the reference detector exceeds its full scale.
+    ReferenceAboveFullScale {
+        /// The offending read.
+        read: u32,
+    },
+    /// The series has a reference detector but a read came without its reference read.
+    ReferenceMissing,
+    /// The series has no reference detector but a reference read was given.
+    ReferenceUnexpected,
+    /// The accumulators are full (at least 65 536 reads of each kind fit).
+    Full,
+    /// The series configuration is not finite or out of range.
+    InvalidConfig,
+}
+
+impl fmt::Display for NetSignalError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            NetSignalError::NoLitReads => f.write_str("no lit reads in the measurement"),
+            NetSignalError::SignalAboveFullScale { read } => {
+                write!(f, "signal read {read} is above the detector's full scale")
+            }
+            NetSignalError::ReferenceAboveFullScale { read } => {
+                write!(
+                    f,
+                    "reference read {read} is above the reference detector's full scale"
+                )
+            }
+            NetSignalError::ReferenceMissing => f.write_str("reference read missing"),
+            NetSignalError::ReferenceUnexpected => {
+                f.write_str("reference read given but the series has no reference detector")
+            }
+            NetSignalError::Full => f.write_str("too many reads in one measurement"),
+            NetSignalError::InvalidConfig => f.write_str("series configuration out of range"),
+        }
+    }
+}
+
+#[cfg(feature = "std")]
+impl std::error::Error for NetSignalError {}
+
+/// Settings of the stability checks in [`DarkLitSeries::finish`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct SeriesConfig {
+    /// Drift t statistic above which the measurement is flagged unstable (> 0; default 4).
+    pub drift_t_limit: f32,
+    /// Fraction of lit reads the robust estimate may reject before the measurement is flagged
+    /// unstable (0 ..= 1; default 0.2).
+    pub max_rejected_fraction: f32,
+}
+
+impl Default for SeriesConfig {
+    fn default() -> Self {
+        SeriesConfig {
+            drift_t_limit: 4.0,
+            max_rejected_fraction: 0.2,
+        }
+    }
+}
+
+impl SeriesConfig {
+    /// Checks the settings are finite and in range.
+    pub fn validate(&self) -> Result<(), NetSignalError> {
+        let ok = self.drift_t_limit.is_finite()
+            && self.drift_t_limit > 0.0
+            && (0.0..=1.0).contains(&self.max_rejected_fraction);
+        if ok {
+            Ok(())
+        } else {
+            Err(NetSignalError::InvalidConfig)
+        }
+    }
+}
+
+/// A dark-corrected level of one detector (counts).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Level {
+    /// Lit location minus dark location (counts); may be zero or negative.
+    pub net: f32,
+    /// Standard error of `net` (counts).
+    pub std_error: f32,
+}
+
+impl Level {
+    /// Relative standard error u(net)/net; infinite when net is not positive.
+    pub fn relative_std_error(&self) -> f32 {
+        if self.net > 0.0 {
+            self.std_error / self.net
+        } else {
+            f32::INFINITY
+        }
+    }
+}
+
+/// The outcome of one measurement's dark and lit reads.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct NetSignal {
+    /// The measuring detector's net level.
+    pub signal: Level,
+    /// The reference detector's net level, where one is fitted.
+    pub reference: Option<Level>,
+    /// Quality flags of the reads (saturated, no_dark, unstable).
+    pub flags: Flags,
+    /// Lit reads taken.
+    pub lit_reads: u32,
+    /// Dark reads taken.
+    pub dark_reads: u32,
+    /// Lit reads the robust estimate rejected as outliers.
+    pub rejected_reads: u32,
+}
+
+/// Location and standard error of one stream of reads.
+#[derive(Clone, Copy, Debug)]
+struct Located {
+    value: f32,
+    std_error: f32,
+    rejected: u32,
+}
+
+/// The reads of one measurement (dark and lit, measuring and reference detector).
+///
+/// `N` is the capacity of each robust buffer (dark and lit reads of the measuring detector);
+/// `N = 0` disables the robust estimate and uses plain means. The rest of the state is 4
+/// accumulators (under 256 bytes in all; see the size test).
+#[derive(Clone, Debug)]
+pub struct DarkLitSeries<const N: usize = 32> {
+    dark: ReadAccumulator,
+    lit: ReadAccumulator,
+    reference: Option<(ReadAccumulator, ReadAccumulator)>,
+    dark_buffer: RobustBuffer<N>,
+    lit_buffer: RobustBuffer<N>,
+}
+
+impl<const N: usize> DarkLitSeries<N> {
+    /// An empty series for a measuring detector and, optionally, a reference detector.
+    pub fn new(signal_full_scale: FullScale, reference_full_scale: Option<FullScale>) -> Self {
+        DarkLitSeries {
+            dark: ReadAccumulator::new(signal_full_scale),
+            lit: ReadAccumulator::new(signal_full_scale),
+            reference: reference_full_scale
+                .map(|fs| (ReadAccumulator::new(fs), ReadAccumulator::new(fs))),
+            dark_buffer: RobustBuffer::new(),
+            lit_buffer: RobustBuffer::new(),
+        }
+    }
+
+    /// Forgets every read, keeping the detectors' full scales.
+    pub fn clear(&mut self) {
+        self.dark.clear();
+        self.lit.clear();
+        if let Some((d, l)) = self.reference.as_mut() {
+            d.clear();
+            l.clear();
+        }
+        self.dark_buffer.clear();
+        self.lit_buffer.clear();
+    }
+
+    /// Whether the series has a reference detector.
+    pub fn has_reference(&self) -> bool {
+        self.reference.is_some()
+    }
+
+    /// Lit reads so far.
+    pub fn lit_reads(&self) -> u32 {
+        self.lit.count()
+    }
+
+    /// Dark reads so far.
+    pub fn dark_reads(&self) -> u32 {
+        self.dark.count()
+    }
+
+    /// Statistics of the lit reads of the measuring detector so far.
+    pub fn lit_stats(&self) -> Result<ReadStats, AccumulateError> {
+        self.lit.stats()
+    }
+
+    /// Statistics of the dark reads of the measuring detector so far.
+    pub fn dark_stats(&self) -> Result<ReadStats, AccumulateError> {
+        self.dark.stats()
+    }
+
+    /// Adds one dark read (LED off). On error nothing changes.
+    pub fn push_dark(&mut self, signal: u32, reference: Option<u32>) -> Result<(), NetSignalError> {
+        self.push(false, signal, reference)
+    }
+
+    /// Adds one lit read (LED on). On error nothing changes.
+    pub fn push_lit(&mut self, signal: u32, reference: Option<u32>) -> Result<(), NetSignalError> {
+        self.push(true, signal, reference)
+    }
+
+    fn push(
+        &mut self,
+        lit: bool,
+        signal: u32,
+        reference: Option<u32>,
+    ) -> Result<(), NetSignalError> {
+        let main = if lit { self.lit } else { self.dark };
+        let mut main_next = main;
+        main_next.push(signal).map_err(|e| match e {
+            AccumulateError::AboveFullScale { read } => {
+                NetSignalError::SignalAboveFullScale { read }
+            }
+            _ => NetSignalError::Full,
+        })?;
+        match (self.reference.as_mut(), reference) {
+            (None, None) => {}
+            (None, Some(_)) => return Err(NetSignalError::ReferenceUnexpected),
+            (Some(_), None) => return Err(NetSignalError::ReferenceMissing),
+            (Some((ref_dark, ref_lit)), Some(r)) => {
+                let acc = if lit { ref_lit } else { ref_dark };
+                acc.push(r).map_err(|e| match e {
+                    AccumulateError::AboveFullScale { read } => {
+                        NetSignalError::ReferenceAboveFullScale { read }
+                    }
+                    _ => NetSignalError::Full,
+                })?;
+            }
+        }
+        if lit {
+            self.lit = main_next;
+            // The buffer keeps the first N reads; beyond them the plain mean is used.
+            let _ = self.lit_buffer.push(signal);
+        } else {
+            self.dark = main_next;
+            let _ = self.dark_buffer.push(signal);
+        }
+        Ok(())
+    }
+
+    /// The net levels, their standard errors and the quality flags of the measurement.
+    pub fn finish(&self, config: &SeriesConfig) -> Result<NetSignal, NetSignalError> {
+        config.validate()?;
+        let lit = locate(&self.lit, &self.lit_buffer).ok_or(NetSignalError::NoLitReads)?;
+        let dark = locate(&self.dark, &self.dark_buffer);
+        let mut flags = Flags::NONE;
+        flags.set_if(Flag::Saturated, self.lit.at_full_scale() > 0);
+        flags.set_if(Flag::NoDark, dark.is_none());
+        let dark = dark.unwrap_or(Located {
+            value: 0.0,
+            std_error: 0.0,
+            rejected: 0,
+        });
+        let signal = Level {
+            net: lit.value - dark.value,
+            std_error: math::sqrtf(lit.std_error * lit.std_error + dark.std_error * dark.std_error),
+        };
+        let reference = match &self.reference {
+            None => None,
+            Some((rd, rl)) => {
+                let rlit = rl.stats().map_err(|_| NetSignalError::NoLitReads)?;
+                flags.set_if(Flag::Saturated, rlit.at_full_scale > 0);
+                let (dm, dse) = rd
+                    .stats()
+                    .map(|s| (s.mean, s.std_error()))
+                    .unwrap_or((0.0, 0.0));
+                let se = rlit.std_error();
+                Some(Level {
+                    net: rlit.mean - dm,
+                    std_error: math::sqrtf(se * se + dse * dse),
+                })
+            }
+        };
+
+        // Drift of the net level across the measurement.
+        let net_change = change(&self.lit) - change(&self.dark);
+        let net_change_se = hypot(change_se(&self.lit), change_se(&self.dark));
+        let drift_t = match (&self.reference, reference) {
+            (Some((rd, rl)), Some(r)) if signal.net > 0.0 && r.net > 0.0 => {
+                let ref_change = change(rl) - change(rd);
+                let ref_change_se = hypot(change_se(rl), change_se(rd));
+                let rel = net_change / signal.net - ref_change / r.net;
+                let rel_se = hypot(net_change_se / signal.net, ref_change_se / r.net);
+                ratio(rel, rel_se)
+            }
+            _ => ratio(net_change, net_change_se),
+        };
+        flags.set_if(Flag::Unstable, drift_t > config.drift_t_limit);
+        let rejected_fraction = lit.rejected as f32 / self.lit.count().max(1) as f32;
+        flags.set_if(
+            Flag::Unstable,
+            rejected_fraction > config.max_rejected_fraction,
+        );
+
+        Ok(NetSignal {
+            signal,
+            reference,
+            flags,
+            lit_reads: self.lit.count(),
+            dark_reads: self.dark.count(),
+            rejected_reads: lit.rejected,
+        })
+    }
+}
+
+/// |a| / b, 0 when b is 0 (a noiseless series shows no drift beyond noise unless it changed).
+fn ratio(a: f32, b: f32) -> f32 {
+    if b > 0.0 {
+        math::absf(a) / b
+    } else if a == 0.0 {
+        0.0
+    } else {
+        f32::INFINITY
+    }
+}
+
+fn hypot(a: f32, b: f32) -> f32 {
+    math::sqrtf(a * a + b * b)
+}
+
+fn change(acc: &ReadAccumulator) -> f32 {
+    acc.trend().as_ref().map_or(0.0, Trend::span_change)
+}
+
+fn change_se(acc: &ReadAccumulator) -> f32 {
+    acc.trend()
+        .as_ref()
+        .map_or(0.0, Trend::span_change_std_error)
+}
+
+/// The location of one stream: robust while every read is buffered, plain mean beyond.
+fn locate<const N: usize>(acc: &ReadAccumulator, buffer: &RobustBuffer<N>) -> Option<Located> {
+    let stats = acc.stats().ok()?;
+    if N > 0 && stats.count as usize == buffer.len() && stats.count >= 3 {
+        let mut b = buffer.clone();
+        if let Some(h) = b.huber() {
+            return Some(Located {
+                value: h.location,
+                std_error: h.std_error,
+                rejected: h.rejected,
+            });
+        }
+    }
+    Some(Located {
+        value: stats.mean,
+        std_error: stats.std_error(),
+        rejected: 0,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn fs(v: u32) -> FullScale {
+        FullScale::new(v).unwrap()
+    }
+
+    #[test]
+    fn per_channel_state_fits_256_bytes() {
+        // Budget of issue 2: accumulators and photometry state, robust buffers excluded.
+        assert!(core::mem::size_of::<DarkLitSeries<0>>() <= 256);
+        assert!(core::mem::size_of::<ReadAccumulator>() <= 48);
+    }
+
+    #[test]
+    fn net_is_lit_minus_dark() {
+        let mut s = DarkLitSeries::<8>::new(fs(4095), None);
+        for (d, l) in [(100, 3100), (102, 3102), (98, 3098), (100, 3100)] {
+            s.push_dark(d, None).unwrap();
+            s.push_lit(l, None).unwrap();
+        }
+        let n = s.finish(&SeriesConfig::default()).unwrap();
+        assert!((n.signal.net - 3000.0).abs() < 1e-3);
+        assert!(n.flags.is_empty(), "{:?}", n.flags);
+        assert_eq!((n.lit_reads, n.dark_reads), (4, 4));
+    }
+
+    #[test]
+    fn no_dark_and_saturation_are_flagged() {
+        let mut s = DarkLitSeries::<8>::new(fs(1000), None);
+        s.push_lit(1000, None).unwrap();
+        s.push_lit(999, None).unwrap();
+        let n = s.finish(&SeriesConfig::default()).unwrap();
+        assert!(n.flags.contains(Flag::NoDark));
+        assert!(n.flags.contains(Flag::Saturated));
+    }
+
+    #[test]
+    fn reference_errors_leave_the_series_unchanged() {
+        let mut s = DarkLitSeries::<8>::new(fs(1000), Some(fs(1000)));
+        assert_eq!(s.push_lit(10, None), Err(NetSignalError::ReferenceMissing));
+        assert_eq!(
+            s.push_lit(10, Some(1001)),
+            Err(NetSignalError::ReferenceAboveFullScale { read: 1001 })
+        );
+        assert_eq!(s.lit_reads(), 0);
+        let mut t = DarkLitSeries::<8>::new(fs(1000), None);
+        assert_eq!(
+            t.push_dark(1, Some(1)),
+            Err(NetSignalError::ReferenceUnexpected)
+        );
+        assert_eq!(
+            t.finish(&SeriesConfig::default()),
+            Err(NetSignalError::NoLitReads)
+        );
+    }
+
+    #[test]
+    fn a_ramp_is_unstable_unless_the_reference_follows_it() {
+        let mut plain = DarkLitSeries::<0>::new(fs(65535), None);
+        let mut refd = DarkLitSeries::<0>::new(fs(65535), Some(fs(65535)));
+        for k in 0..40u32 {
+            // LED output rising 0.5 % per read, small alternating noise.
+            let led = 40_000.0 * (1.0 + 0.005 * k as f32);
+            let noise = if k % 2 == 0 { 3 } else { 0 };
+            plain.push_dark(200 + noise, None).unwrap();
+            plain
+                .push_lit(200 + (led * 0.5) as u32 + noise, None)
+                .unwrap();
+            refd.push_dark(200 + noise, Some(100)).unwrap();
+            refd.push_lit(
+                200 + (led * 0.5) as u32 + noise,
+                Some((led * 0.25) as u32 + 100),
+            )
+            .unwrap();
+        }
+        let cfg = SeriesConfig::default();
+        assert!(plain.finish(&cfg).unwrap().flags.contains(Flag::Unstable));
+        assert!(!refd.finish(&cfg).unwrap().flags.contains(Flag::Unstable));
+    }
+
+    #[test]
+    fn invalid_config_is_refused() {
+        let mut s = DarkLitSeries::<0>::new(fs(10), None);
+        s.push_lit(5, None).unwrap();
+        let bad = SeriesConfig {
+            drift_t_limit: f32::NAN,
+            ..SeriesConfig::default()
+        };
+        assert_eq!(s.finish(&bad), Err(NetSignalError::InvalidConfig));
+    }
+}

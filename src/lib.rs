@@ -19,6 +19,8 @@ pub mod math;
 pub mod net_signal;
 pub mod photometry;
 pub mod robust;
+#[cfg(feature = "sim")]
+pub mod sim;
 
 pub use accumulator::{AccumulateError, ReadAccumulator, ReadStats};
 pub use counts::{FullScale, MAX_COUNT};

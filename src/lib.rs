@@ -13,14 +13,17 @@
 extern crate std;
 
 pub mod accumulator;
+pub mod calibration;
 pub mod counts;
 pub mod flags;
+mod incomplete_beta;
 pub mod math;
 pub mod net_signal;
 pub mod photometry;
 pub mod robust;
 #[cfg(feature = "sim")]
 pub mod sim;
+pub mod student_t;
 
 pub use accumulator::{AccumulateError, ReadAccumulator, ReadStats};
 pub use counts::{FullScale, MAX_COUNT};

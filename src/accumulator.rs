@@ -174,6 +174,7 @@ impl ReadAccumulator {
     ///
     /// Errors: [`AccumulateError::AboveFullScale`] for a read beyond the full scale,
     /// [`AccumulateError::Full`] when a sum would overflow. On error nothing changes.
+    #[inline]
     pub fn push(&mut self, read: u32) -> Result<(), AccumulateError> {
         let fs = self.full_scale.value();
         if read > fs {
@@ -185,18 +186,28 @@ impl ReadAccumulator {
         // |d| < 2^24, k < 2^32: every product below fits its type; only the sums can overflow.
         let d = i64::from(read) - i64::from(self.shift);
         let k = i64::from(self.count);
-        let (Some(count), Some(sum), Some(sum_sq), Some(sum_kd)) = (
-            self.count.checked_add(1),
-            self.sum.checked_add(d),
-            self.sum_sq.checked_add(d.unsigned_abs() * d.unsigned_abs()),
-            self.sum_kd.checked_add(k * d),
-        ) else {
-            return Err(AccumulateError::Full);
-        };
-        self.count = count;
-        self.sum = sum;
-        self.sum_sq = sum_sq;
-        self.sum_kd = sum_kd;
+        let d2 = d.unsigned_abs() * d.unsigned_abs();
+        if self.count < GUARANTEED_READS {
+            // Fast path: below 2^16 reads no sum can overflow (|Σd| < 2^40, Σd² < 2^64,
+            // |Σkd| < 2^56), so plain adds are exact.
+            self.count += 1;
+            self.sum += d;
+            self.sum_sq += d2;
+            self.sum_kd += k * d;
+        } else {
+            let (Some(count), Some(sum), Some(sum_sq), Some(sum_kd)) = (
+                self.count.checked_add(1),
+                self.sum.checked_add(d),
+                self.sum_sq.checked_add(d2),
+                self.sum_kd.checked_add(k * d),
+            ) else {
+                return Err(AccumulateError::Full);
+            };
+            self.count = count;
+            self.sum = sum;
+            self.sum_sq = sum_sq;
+            self.sum_kd = sum_kd;
+        }
         self.min = self.min.min(read);
         self.max = self.max.max(read);
         if read == fs {

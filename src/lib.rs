@@ -21,6 +21,7 @@ pub mod math;
 pub mod net_signal;
 pub mod photometry;
 pub mod robust;
+pub mod session;
 #[cfg(feature = "sim")]
 pub mod sim;
 pub mod student_t;

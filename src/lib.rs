@@ -17,9 +17,11 @@ pub mod calibration;
 pub mod counts;
 pub mod flags;
 mod incomplete_beta;
+pub mod limits;
 pub mod math;
 pub mod net_signal;
 pub mod photometry;
+pub mod quantification;
 pub mod robust;
 pub mod session;
 #[cfg(feature = "sim")]

@@ -114,8 +114,9 @@ pub struct Fit {
     scale: f64,
     /// Centred-basis coefficients, by power of t (Origin uses only power 1).
     beta: [f64; 3],
-    /// (XᵀWX)⁻¹ in the centred basis, by powers (rows/columns of unused powers are 0).
-    xtwx_inv: [[f64; 3]; 3],
+    /// (XᵀWX)⁻¹ in the centred basis, by powers (entries of unused powers are 0), packed
+    /// symmetric: (0,0) (0,1) (0,2) (1,1) (1,2) (2,2).
+    xtwx_inv: [f64; 6],
     ss_res: f64,
     ss_tot: f64,
     weight_sum: f64,
@@ -127,6 +128,19 @@ const fn powers(model: Model) -> &'static [usize] {
         Model::Origin => &[1],
         Model::Linear => &[0, 1],
         Model::Quadratic => &[0, 1, 2],
+    }
+}
+
+/// Index of entry (k, l) of a packed symmetric 3×3 matrix.
+const fn packed(k: usize, l: usize) -> usize {
+    let (a, b) = if k <= l { (k, l) } else { (l, k) };
+    match (a, b) {
+        (0, 0) => 0,
+        (0, 1) => 1,
+        (0, 2) => 2,
+        (1, 1) => 3,
+        (1, 2) => 4,
+        _ => 5,
     }
 }
 
@@ -260,11 +274,13 @@ impl Fit {
         }
         // Map parameter order to powers of t.
         let mut beta = [0.0f64; 3];
-        let mut xtwx_inv = [[0.0f64; 3]; 3];
+        let mut xtwx_inv = [0.0f64; 6];
         for (i, &ki) in pw.iter().enumerate() {
             beta[ki] = beta_p[i];
             for (j, &kj) in pw.iter().enumerate() {
-                xtwx_inv[ki][kj] = cov_p[i][j];
+                if let Some(cell) = xtwx_inv.get_mut(packed(ki, kj)) {
+                    *cell = cov_p[i][j];
+                }
             }
         }
         beta[0] += y_centre;
@@ -297,7 +313,7 @@ impl Fit {
         fit.ss_res = ss_res;
         fit.ss_tot = ss_tot;
         let all_finite = fit.beta.iter().all(|b| b.is_finite())
-            && fit.xtwx_inv.iter().flatten().all(|c| c.is_finite())
+            && fit.xtwx_inv.iter().all(|c| c.is_finite())
             && ss_res.is_finite()
             && ss_tot.is_finite();
         if all_finite {
@@ -342,7 +358,7 @@ impl Fit {
                 let mut acc = 0.0;
                 for k in 0..3 {
                     for l in 0..3 {
-                        acc += j[a][k] * self.xtwx_inv[k][l] * j[b][l];
+                        acc += j[a][k] * self.inv(k, l) * j[b][l];
                     }
                 }
                 *cell = s2 * acc;
@@ -404,6 +420,37 @@ impl Fit {
         (self.beta[1] + 2.0 * self.beta[2] * t) / self.scale
     }
 
+    /// The x at which the fitted curve reaches `y`, on the rising branch of the curve (the
+    /// branch where dy/dx > 0); `None` if the curve never reaches `y` there (a quadratic beyond
+    /// its vertex) or the model has no rising branch.
+    ///
+    /// Solved in the centred basis; the quadratic root uses the cancellation-free form.
+    pub fn inverse(&self, y: f64) -> Option<f64> {
+        let [b0, b1, b2] = self.beta;
+        let d = y - b0;
+        let t = if b2 == 0.0 {
+            if b1 > 0.0 {
+                d / b1
+            } else {
+                return None;
+            }
+        } else {
+            // b2 t² + b1 t - d = 0; rising branch: dy/dt = b1 + 2 b2 t = +√disc.
+            let disc = b1 * b1 + 4.0 * b2 * d;
+            if disc.is_nan() || disc <= 0.0 {
+                return None;
+            }
+            let root = math::sqrt(disc);
+            if b1 > 0.0 {
+                2.0 * d / (b1 + root)
+            } else {
+                (root - b1) / (2.0 * b2)
+            }
+        };
+        let x = self.shift + self.scale * t;
+        x.is_finite().then_some(x)
+    }
+
     /// Variance of the fitted value at `x` (from the coefficient covariance).
     pub fn fitted_variance(&self, x: f64) -> f64 {
         self.residual_variance() * self.unscaled_leverage(x)
@@ -415,16 +462,20 @@ impl Fit {
         let mut acc = 0.0;
         for k in 0..3 {
             for l in 0..3 {
-                acc += b[k] * self.xtwx_inv[k][l] * b[l];
+                acc += b[k] * self.inv(k, l) * b[l];
             }
         }
         acc.max(0.0)
     }
 
     /// Factor that turns a raw weight into the normalised weight the fit used (n / Σw).
-    #[allow(dead_code)] // used by quantification (next commit)
     pub(crate) fn weight_norm(&self) -> f64 {
         f64::from(self.n) / self.weight_sum
+    }
+
+    /// Entry (k, l) of (XᵀWX)⁻¹ in the centred basis.
+    fn inv(&self, k: usize, l: usize) -> f64 {
+        self.xtwx_inv.get(packed(k, l)).copied().unwrap_or(0.0)
     }
 
     /// d(c)/d(β): c = J β for the centred-to-plain basis change.

@@ -18,6 +18,7 @@ pub mod counts;
 pub mod flags;
 mod incomplete_beta;
 pub mod limits;
+pub mod instrument;
 pub mod math;
 pub mod net_signal;
 pub mod photometry;

@@ -15,6 +15,8 @@
 //! * [`bench`]: [`SimBench`] puts them together: `read(t_ms, led_on, &sample)` gives one
 //!   [`SimRead`] of the measuring detector and, if configured, a reference detector that sees
 //!   the LED before the cuvette.
+//! * [`rig`]: [`SimRig`] puts the bench behind the instrument layer's embedded-hal traits, so
+//!   the real [`crate::instrument::Sequencer`] measures the simulated photometer.
 //!
 //! All parameters are invented for simulation (see [`SimConfig::GREEN_DEMO`]); they describe
 //! no real device. Time is handed in, never read from a clock, so a seed and a call sequence
@@ -34,10 +36,12 @@ pub mod bench;
 pub mod detector;
 pub mod led;
 pub mod optics;
+pub mod rig;
 pub mod rng;
 
 pub use bench::{ReferenceChannel, SimBench, SimConfig, SimConfigError, SimExpected, SimRead};
 pub use detector::DetectorModel;
 pub use led::{LedModel, LedState};
 pub use optics::{Absorber, Cuvette, GaussianBand, Optics, SimSample};
+pub use rig::{SimHardware, SimRig, INTEGRATION_STEPS_MS};
 pub use rng::SimRng;

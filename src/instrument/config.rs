@@ -224,8 +224,10 @@ mod tests {
     #[test]
     fn default_is_valid_and_bad_settings_are_named() {
         assert_eq!(SequenceConfig::default().validate(), Ok(()));
-        let mut c = SequenceConfig::default();
-        c.pairs = 0;
+        let c = SequenceConfig {
+            pairs: 0,
+            ..SequenceConfig::default()
+        };
         assert_eq!(c.validate(), Err(ConfigError::Pairs));
         let mut c = SequenceConfig::default();
         c.exposure.low = 0.9;

@@ -1,50 +1,10 @@
 //! Session metadata (`# key: value` lines before the header).
 
-use core::fmt;
-
 use heapless::String;
 
+pub use crate::calibration::Model;
+
 use super::{MAX_ANALYTE_LEN, MAX_UNIT_LEN};
-
-/// The calibration model a session asks for (`# model:`; default [`Model::Linear`]).
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub enum Model {
-    /// Straight line A = c0 + c1*x.
-    #[default]
-    Linear,
-    /// Through the origin (Beer-Lambert) A = c1*x.
-    Origin,
-    /// Quadratic A = c0 + c1*x + c2*x^2.
-    Quadratic,
-}
-
-impl Model {
-    /// The model's word in the format (`linear`, `origin`, `quadratic`).
-    pub const fn name(self) -> &'static str {
-        match self {
-            Model::Linear => "linear",
-            Model::Origin => "origin",
-            Model::Quadratic => "quadratic",
-        }
-    }
-
-    /// Parses the model's word.
-    pub fn from_name(name: &str) -> Option<Model> {
-        match name {
-            "linear" => Some(Model::Linear),
-            "origin" => Some(Model::Origin),
-            "quadratic" => Some(Model::Quadratic),
-            _ => None,
-        }
-    }
-}
-
-impl fmt::Display for Model {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(self.name())
-    }
-}
 
 /// A metadata key the format defines. Other `# key: value` lines are comments.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -110,7 +70,7 @@ pub struct Metadata {
     pub path_mm: Option<f32>,
     /// Analyte, if given.
     pub analyte: Option<String<MAX_ANALYTE_LEN>>,
-    /// Calibration model, if given (see [`Metadata::model`]).
+    /// Calibration model (`linear`, `origin`, `quadratic`), if given (see [`Metadata::model`]).
     pub model: Option<Model>,
 }
 
@@ -127,9 +87,10 @@ impl Metadata {
         }
     }
 
-    /// The calibration model to use: the one given, else [`Model::Linear`].
+    /// The calibration model to use: the one given, else [`Model::Linear`] (the format's
+    /// default).
     pub fn model(&self) -> Model {
-        self.model.unwrap_or_default()
+        self.model.unwrap_or(Model::Linear)
     }
 
     /// The unit text, or `""`.

@@ -22,6 +22,9 @@
 //!   line number and a [`ReadErrorKind`].
 //! - [`writer`]: [`SessionWriter`] writes metadata, header and rows through any
 //!   [`core::fmt::Write`], refusing rows the reader would reject.
+//! - [`replay`]: [`Replay`] groups rows into measurements (dark and lit reads, the blank of each
+//!   channel, standards forming the calibration) and quantifies standards, samples and checks
+//!   with the spec's fields and flags; [`replay_bytes`] runs reader and replay over a buffer.
 //!
 //! Implementation limits (typed errors, never silent truncation): channel names and ids at most
 //! [`MAX_NAME_LEN`] bytes, the unit at most [`MAX_UNIT_LEN`], the analyte at most
@@ -31,15 +34,22 @@
 //! specified in `session-format.md` of the project's shared specification; its names are kept
 //! here exactly.
 
+mod calibrate;
 mod error;
 mod metadata;
 pub mod reader;
+pub mod replay;
 mod row;
 pub mod writer;
 
+pub use calibrate::{CalibrationError, ChannelCalibration};
 pub use error::{Field, NumberError, ReadError, ReadErrorKind};
 pub use metadata::{Metadata, MetadataKey, Model};
 pub use reader::{lines, Event, SessionReader};
+pub use replay::{
+    replay_bytes, Channel, Measurement, Quantity, Replay, ReplayConfig, ReplayError,
+    ReplayErrorKind, SessionError,
+};
 pub use row::{Led, Role, Row};
 pub use writer::{SessionWriter, WriteError};
 

@@ -13,7 +13,7 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 use lumisorb::session::{Led, Metadata, Model, Role, Row, SessionWriter};
-use lumisorb::sim::{SimBench, SimConfig, SimSample};
+use lumisorb::sim::{SimBench, SimConfig, SimRng, SimSample};
 
 /// One measurement of the simulated round.
 #[derive(Clone, Copy)]
@@ -43,6 +43,9 @@ struct Scenario {
     warm_up_ms: u32,
     steps: Vec<Step>,
     seed: u64,
+    /// Relative standard deviation of preparing a standard (pipetting, weighing): the cuvette
+    /// holds nominal × (1 + prep_error·z), z standard normal, while the row records the nominal.
+    prep_error: f32,
 }
 
 fn meta(full_scale: u32, unit: &str, analyte: &str, model: Model) -> Metadata {
@@ -120,6 +123,7 @@ fn brook_round() -> Scenario {
         warm_up_ms: 20_000,
         steps,
         seed: 880,
+        prep_error: 0.004,
     }
 }
 
@@ -133,7 +137,7 @@ fn classroom_dye() -> Scenario {
     c.optics.absorber.band.peak_nm = 629.0;
     c.optics.absorber.band.fwhm_nm = 55.0;
     c.optics.absorber.absorptivity_per_cm = 0.16;
-    c.optics.cuvette.stray_fraction = 0.008;
+    c.optics.cuvette.stray_fraction = 0.003;
     c.signal.full_scale = 4_095;
     c.signal.counts_per_electron = 0.016;
     c.signal.dark_offset = 40.0;
@@ -144,20 +148,28 @@ fn classroom_dye() -> Scenario {
     use Step::*;
     let steps = vec![
         Measure(0, Blank, "water", 0.0),
-        Measure(0, Standard, "dye 0", 0.0),
-        Measure(0, Standard, "dye 1", 1.0),
-        Measure(0, Standard, "dye 2", 2.0),
-        Measure(0, Standard, "dye 4", 4.0),
-        Measure(0, Standard, "dye 6", 6.0),
-        Measure(0, Standard, "dye 8", 8.0),
-        Measure(0, Standard, "dye 10", 10.0),
+        // Two student groups each made the standard series: replicates for the lack-of-fit test.
+        Measure(0, Standard, "dye 0 (group A)", 0.0),
+        Measure(0, Standard, "dye 1 (group A)", 1.0),
+        Measure(0, Standard, "dye 2 (group A)", 2.0),
+        Measure(0, Standard, "dye 3 (group A)", 3.0),
+        Measure(0, Standard, "dye 4 (group A)", 4.0),
+        Measure(0, Standard, "dye 5 (group A)", 5.0),
+        Measure(0, Standard, "dye 6 (group A)", 6.0),
+        Measure(0, Standard, "dye 0 (group B)", 0.0),
+        Measure(0, Standard, "dye 1 (group B)", 1.0),
+        Measure(0, Standard, "dye 2 (group B)", 2.0),
+        Measure(0, Standard, "dye 3 (group B)", 3.0),
+        Measure(0, Standard, "dye 4 (group B)", 4.0),
+        Measure(0, Standard, "dye 5 (group B)", 5.0),
+        Measure(0, Standard, "dye 6 (group B)", 6.0),
         Wait(60_000),
         Measure(0, Sample, "Lagoon fizz", 3.1),
-        Measure(0, Sample, "Mint slush syrup 1+9", 5.4),
+        Measure(0, Sample, "Mint slush syrup 1+9", 4.7),
         Measure(0, Sample, "Sports drink Zephyr", 18.0),
         Measure(0, Sample, "Sports drink Zephyr 1+3", 4.5),
         Measure(0, Sample, "Jelly sweet extract", 0.8),
-        Measure(0, Check, "check dye 5", 5.0),
+        Measure(0, Check, "check dye 2.5", 2.5),
         Measure(0, Sample, "Tap water", 0.0),
     ];
     Scenario {
@@ -173,6 +185,7 @@ fn classroom_dye() -> Scenario {
         warm_up_ms: 20_000,
         steps,
         seed: 630,
+        prep_error: 0.02,
     }
 }
 
@@ -253,6 +266,7 @@ fn twin_led_drift() -> Scenario {
         warm_up_ms: 20_000,
         steps,
         seed: 525,
+        prep_error: 0.005,
     }
 }
 
@@ -267,6 +281,7 @@ fn write_scenario(s: &Scenario, out: &Path) -> Result<PathBuf, String> {
     let mut w = SessionWriter::new(&mut text, &s.meta).map_err(|e| e.to_string())?;
     w.comment("invented demo data written by examples/simulate_sessions.rs (lumisorb::sim); no real site, sample or instrument")
         .map_err(|e| e.to_string())?;
+    let mut prep_rng = SimRng::new(s.seed ^ 0x5eed);
     // Power-up: the first read only starts the LEDs' thermal clocks.
     for b in benches.iter_mut() {
         let _ = b.read(0, false, &SimSample::BLANK);
@@ -278,7 +293,12 @@ fn write_scenario(s: &Scenario, out: &Path) -> Result<PathBuf, String> {
             Step::Measure(ch, role, id, conc) => {
                 let channel = &s.channels[ch];
                 let bench = &mut benches[ch];
-                let sample = SimSample::with_concentration(conc as f32);
+                let actual = if role == Role::Standard {
+                    conc as f32 * (1.0 + s.prep_error * prep_rng.gaussian())
+                } else {
+                    conc as f32
+                };
+                let sample = SimSample::with_concentration(actual);
                 if matches!(role, Role::Sample | Role::Check) {
                     let mut line = String::new();
                     write!(line, "truth {} {} {}", channel.name, id, conc).unwrap();

@@ -16,8 +16,8 @@ mod plot;
 use std::fmt::Write as _;
 use std::process::ExitCode;
 
+use lumisorb::calibration::LackOfFit;
 use lumisorb::session::{replay_bytes, Channel, Measurement, Metadata, Replay, Role};
-use lumisorb::Flag;
 
 /// Capacities of the host replay: channels, standards per channel, measurements.
 pub const CHANNELS: usize = 16;
@@ -113,136 +113,17 @@ fn main() -> ExitCode {
     ExitCode::SUCCESS
 }
 
-/// A JSON number, or `null` when absent or not finite.
-fn jnum(v: Option<f64>) -> String {
-    match v {
-        Some(x) if x.is_finite() => format!("{x}"),
-        _ => "null".into(),
-    }
-}
-
-/// A JSON number from an f32, printed with f32's shortest round-trip digits.
-fn jnum32(v: Option<f32>) -> String {
-    match v {
-        Some(x) if x.is_finite() => format!("{x}"),
-        _ => "null".into(),
-    }
-}
-
-fn jstr(s: &str) -> String {
-    let mut out = String::from("\"");
-    for c in s.chars() {
-        match c {
-            '"' => out.push_str("\\\""),
-            '\\' => out.push_str("\\\\"),
-            c if (c as u32) < 0x20 => {
-                let _ = write!(out, "\\u{:04x}", c as u32);
-            }
-            c => out.push(c),
-        }
-    }
-    out.push('"');
+/// The `lumisorb-replay-1` JSON object of the session format (written by the library).
+pub fn json(r: &HostReplay) -> String {
+    let mut out = String::new();
+    let _ = lumisorb::session::write_json(&mut out, r);
     out
 }
 
-fn flags_json(m: &Measurement) -> String {
-    let words: Vec<String> = m.flags.iter().map(|f| jstr(f.name())).collect();
-    format!("[{}]", words.join(", "))
-}
-
-/// The `lumisorb-replay-1` JSON object of the session format.
-pub fn json(r: &HostReplay) -> String {
-    let mut cals = Vec::new();
-    for ch in r.channels() {
-        let Ok(cal) = &ch.calibration else { continue };
-        let [c0, c1, c2] = cal.coefficients();
-        let coefficients = match cal.model() {
-            lumisorb::calibration::Model::Quadratic => format!(
-                "[{}, {}, {}]",
-                jnum(Some(c0)),
-                jnum(Some(c1)),
-                jnum(Some(c2))
-            ),
-            _ => format!("[{}, {}]", jnum(Some(c0)), jnum(Some(c1))),
-        };
-        cals.push(format!(
-            "{{\"channel\": {}, \"model\": {}, \"coefficients\": {coefficients}, \"r_squared\": {}, \"residual_sd\": {}, \"lod\": {}, \"loq\": {}, \"range\": [{}, {}], \"points\": {}}}",
-            jstr(&ch.name),
-            jstr(cal.model().name()),
-            jnum(Some(cal.r_squared())),
-            jnum(Some(cal.residual_sd())),
-            jnum(Some(cal.lod)),
-            jnum(Some(cal.loq)),
-            jnum(Some(cal.range[0])),
-            jnum(Some(cal.range[1])),
-            cal.points()
-        ));
-    }
-    let mut ms = Vec::new();
-    for m in r.measurements() {
-        let channel = r.channels().get(m.channel).map_or("", |c| c.name.as_str());
-        let [lo, hi] = m
-            .quantity
-            .interval
-            .map_or([None, None], |[a, b]| [Some(a), Some(b)]);
-        ms.push(format!(
-            "{{\"id\": {}, \"role\": {}, \"channel\": {}, \"t_ms\": {}, \"transmittance\": {}, \"absorbance\": {}, \"absorbance_sd\": {}, \"concentration\": {}, \"conc_low\": {}, \"conc_high\": {}, \"flags\": {}}}",
-            jstr(&m.id),
-            jstr(m.role.name()),
-            jstr(channel),
-            m.t_ms,
-            jnum32(m.transmittance()),
-            jnum32(m.absorbance()),
-            jnum32(m.absorbance_sd()),
-            jnum(m.quantity.concentration),
-            jnum(lo),
-            jnum(hi),
-            flags_json(m)
-        ));
-    }
-    format!(
-        "{{\"format\": \"lumisorb-replay-1\",\n \"calibrations\": [{}],\n \"measurements\": [\n  {}]}}\n",
-        cals.join(",\n   "),
-        ms.join(",\n  ")
-    )
-}
-
-fn opt(v: Option<f64>) -> String {
-    v.filter(|x| x.is_finite())
-        .map_or(String::new(), |x| format!("{x}"))
-}
-
-fn opt32(v: Option<f32>) -> String {
-    v.filter(|x| x.is_finite())
-        .map_or(String::new(), |x| format!("{x}"))
-}
-
-/// One CSV row per measurement (flags space-separated).
+/// One CSV row per measurement (written by the library).
 pub fn csv(r: &HostReplay) -> String {
-    let mut out = String::from("id,role,channel,t_ms,transmittance,absorbance,absorbance_sd,concentration,conc_low,conc_high,flags\n");
-    for m in r.measurements() {
-        let channel = r.channels().get(m.channel).map_or("", |c| c.name.as_str());
-        let [lo, hi] = m
-            .quantity
-            .interval
-            .map_or([None, None], |[a, b]| [Some(a), Some(b)]);
-        let flags: Vec<&str> = m.flags.iter().map(Flag::name).collect();
-        let _ = writeln!(
-            out,
-            "{},{},{},{},{},{},{},{},{},{},{}",
-            m.id,
-            m.role.name(),
-            channel,
-            m.t_ms,
-            opt32(m.transmittance()),
-            opt32(m.absorbance()),
-            opt32(m.absorbance_sd()),
-            opt(m.quantity.concentration),
-            opt(lo),
-            opt(hi),
-            flags.join(" ")
-        );
-    }
+    let mut out = String::new();
+    let _ = lumisorb::session::write_csv(&mut out, r);
     out
 }
 
@@ -303,15 +184,33 @@ fn channel_report(out: &mut String, ch: &Channel<STANDARDS>, unit: &str) {
                 "               R² = {:.5}, s_y/x = {} (absorbance), {} standards from {} to {} {unit}",
                 cal.r_squared(),
                 sig(cal.residual_sd(), 3),
-                cal.points(),
-                sig(cal.range[0], 4),
-                sig(cal.range[1], 4)
+                cal.points().len(),
+                sig(f64::from(cal.range().0), 4),
+                sig(f64::from(cal.range().1), 4)
             );
-            let _ = writeln!(out, "               LOD = {} {unit}, LOQ = {} {unit} (ICH Q2(R1): 3.3 and 10 s_y/x / slope)", sig(cal.lod, 3), sig(cal.loq, 3));
-            let _ = writeln!(
-                out,
-                "               lack of fit: not tested (needs replicated standards)"
-            );
+            let _ = writeln!(out, "               LOD = {} {unit}, LOQ = {} {unit} (ICH Q2(R1): 3.3 and 10 s_y/x / slope)", sig(f64::from(cal.lod()), 3), sig(f64::from(cal.loq()), 3));
+            let verdict = match cal.lack_of_fit() {
+                LackOfFit::NotTestable => "not testable (needs replicated standards)".to_string(),
+                LackOfFit::Adequate(t) => format!(
+                    "adequate (F = {:.2}, p = {:.3}, df {}/{})",
+                    t.f, t.p_value, t.df_lack_of_fit, t.df_pure_error
+                ),
+                LackOfFit::Inadequate {
+                    test: t,
+                    suggestion,
+                } => format!(
+                    "model rejected (F = {:.2}, p = {:.4}){}",
+                    t.f,
+                    t.p_value,
+                    suggestion.map_or(String::new(), |m| format!(": try the {} model", m.name()))
+                ),
+            };
+            let _ = writeln!(out, "               lack of fit: {verdict}");
+            if let Some(i) = cal.suspicious_standard() {
+                if let Some(s) = cal.points().get(i) {
+                    let _ = writeln!(out, "               suspicious standard: the one at {} {unit} (large studentized residual): check it", s.concentration);
+                }
+            }
         }
     }
 }
@@ -321,14 +220,19 @@ fn measurement_line(out: &mut String, m: &Measurement, unit: &str) {
         (Some(a), Some(sd)) => format!("{a:>7.4} ± {sd:.4}"),
         _ => format!("{:>16}", "-"),
     };
-    let conc = match (m.quantity.concentration, m.quantity.interval) {
+    let conc = match (m.concentration().map(f64::from), m.interval()) {
         (Some(c), Some([lo, hi])) => {
-            format!("{} {unit} [{}, {}]", sig(c, 3), sig(lo, 3), sig(hi, 3))
+            format!(
+                "{} {unit} [{}, {}]",
+                sig(c, 3),
+                sig(f64::from(lo), 3),
+                sig(f64::from(hi), 3)
+            )
         }
         (Some(c), None) => format!("{} {unit}", sig(c, 3)),
         _ => "-".into(),
     };
-    let known = match (m.role, m.known, m.quantity.concentration) {
+    let known = match (m.role, m.known, m.concentration().map(f64::from)) {
         (Role::Check, Some(k), Some(c)) if k > 0.0 => format!(
             "  known {} {unit}, recovery {:.1} %",
             sig(k, 3),

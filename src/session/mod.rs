@@ -34,21 +34,21 @@
 //! specified in `session-format.md` of the project's shared specification; its names are kept
 //! here exactly.
 
-mod calibrate;
 mod error;
 mod metadata;
+pub mod output;
 pub mod reader;
 pub mod replay;
 mod row;
 pub mod writer;
 
-pub use calibrate::{CalibrationError, ChannelCalibration};
 pub use error::{Field, NumberError, ReadError, ReadErrorKind};
 pub use metadata::{Metadata, MetadataKey, Model};
+pub use output::{write_csv, write_json};
 pub use reader::{lines, Event, SessionReader};
 pub use replay::{
-    replay_bytes, Channel, Measurement, Quantity, Replay, ReplayConfig, ReplayError,
-    ReplayErrorKind, SessionError,
+    replay_bytes, Channel, Measurement, Replay, ReplayConfig, ReplayError, ReplayErrorKind,
+    SessionError,
 };
 pub use row::{Led, Role, Row};
 pub use writer::{SessionWriter, WriteError};

@@ -9,9 +9,12 @@
 //!   `no_blank` and no absorbance;
 //! * every `standard` of a channel (with a blank, not `saturated` and not `low_signal`) joins
 //!   the channel's calibration, fitted with the session's model once all rows are read; the
-//!   standards' own concentrations are back-calculated from the curve;
+//!   standards' own concentrations are back-calculated from the curve (without `above_range`:
+//!   a standard of the fit is inside the calibrated range by definition);
 //! * `sample` and `check` measurements are quantified against their channel's calibration
-//!   (`no_calibration` where there is none).
+//!   (`no_calibration` where there is none); with `low_signal` the absorbance is only a lower
+//!   bound and no concentration is given; above the highest standard (`above_range`) the
+//!   extrapolated concentration is given without an interval.
 //!
 //! Capacities are const generics: `C` channels, `S` standards per channel, `M` reported
 //! measurements (standards, samples and checks), `N` reads per robust buffer. Exceeding one is
@@ -36,13 +39,15 @@ use core::fmt;
 
 use heapless::{String, Vec};
 
-use crate::calibration::{CalibrationSet, Model, SetError, Standard};
+use crate::calibration::{
+    Calibration, CalibrationError, CalibrationSet, Model, SetError, Standard, Weighting,
+};
 use crate::counts::FullScale;
 use crate::flags::{Flag, Flags};
 use crate::net_signal::{DarkLitSeries, NetSignal, NetSignalError, SeriesConfig};
 use crate::photometry::{photometric_result, PhotometricResult, PhotometryConfig, PhotometryError};
+use crate::quantification::{Dilution, Quantified, QuantifyError};
 
-use super::calibrate::{calibrate, CalibrationError, ChannelCalibration};
 use super::reader::{lines, Event, SessionReader};
 use super::{Led, Metadata, ReadError, Role, Row, MAX_NAME_LEN};
 
@@ -89,6 +94,8 @@ pub enum ReplayErrorKind {
     ChannelWavelengthChanged,
     /// A standard's concentration cannot be stored (not finite in f32).
     BadStandard,
+    /// A measurement could not be quantified (an absurd absorbance overflowed).
+    Quantify(QuantifyError),
 }
 
 impl fmt::Display for ReplayErrorKind {
@@ -109,6 +116,7 @@ impl fmt::Display for ReplayErrorKind {
                 f.write_str("channel's nm differs from its earlier measurements")
             }
             K::BadStandard => f.write_str("standard concentration cannot be stored"),
+            K::Quantify(e) => write!(f, "quantification: {e}"),
         }
     }
 }
@@ -187,18 +195,10 @@ pub struct Channel<const S: usize> {
     pub blanks: u32,
     /// The standards that entered the calibration, in measurement order.
     pub standards: CalibrationSet<S>,
-    /// The calibration, once [`Replay::finish`] ran (`Err` says why there is none).
-    pub calibration: Result<ChannelCalibration, CalibrationError>,
+    /// The calibration (unweighted fit of the session's model), once [`Replay::finish`] ran;
+    /// `Err` says why there is none.
+    pub calibration: Result<Calibration<S>, CalibrationError>,
     blank: Option<NetSignal>,
-}
-
-/// The concentration result of a measurement.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Quantity {
-    /// Concentration from the calibration curve, if it could be computed.
-    pub concentration: Option<f64>,
-    /// Its 95 % confidence interval [low, high], if it could be computed.
-    pub interval: Option<[f64; 2]>,
 }
 
 /// One reported measurement (a standard, sample or check).
@@ -222,8 +222,9 @@ pub struct Measurement {
     pub dark_reads: u32,
     /// Transmittance and absorbance against the channel's blank (`None` without a blank).
     pub photometric: Option<PhotometricResult>,
-    /// Concentration and interval (after [`Replay::finish`]).
-    pub quantity: Quantity,
+    /// Concentration with its interval (after [`Replay::finish`]; `None` without a blank, a
+    /// calibration, with `low_signal`, or beyond the top of a quadratic curve).
+    pub quantified: Option<Quantified>,
     /// Every flag of the measurement.
     pub flags: Flags,
     /// Whether the measurement entered its channel's calibration (standards only).
@@ -244,6 +245,21 @@ impl Measurement {
     /// Standard uncertainty of the absorbance, if measured against a blank.
     pub fn absorbance_sd(&self) -> Option<f32> {
         self.photometric.map(|p| p.absorbance_sd)
+    }
+
+    /// Concentration from the calibration curve, if it could be computed.
+    pub fn concentration(&self) -> Option<f32> {
+        self.quantified.map(|q| q.concentration)
+    }
+
+    /// The 95 % confidence interval [low, high] of the concentration. `None` where there is no
+    /// concentration, and above the highest standard (`above_range`): an extrapolated curve
+    /// gives no trustworthy interval.
+    pub fn interval(&self) -> Option<[f32; 2]> {
+        if self.flags.contains(Flag::AboveRange) {
+            return None;
+        }
+        self.quantified.map(|q| [q.low, q.high])
     }
 }
 
@@ -416,7 +432,10 @@ impl<const C: usize, const S: usize, const M: usize, const N: usize> Replay<C, S
                 nm: row.nm,
                 blanks: 0,
                 standards: CalibrationSet::new(),
-                calibration: Err(CalibrationError::NoStandards),
+                calibration: Err(CalibrationError::TooFewPoints {
+                    needed: self.model.parameters() + 1,
+                    got: 0,
+                }),
                 blank: None,
             })
             .map_err(|_| too_many)?;
@@ -482,10 +501,7 @@ impl<const C: usize, const S: usize, const M: usize, const N: usize> Replay<C, S
                 lit_reads: net.lit_reads,
                 dark_reads: net.dark_reads,
                 photometric,
-                quantity: Quantity {
-                    concentration: None,
-                    interval: None,
-                },
+                quantified: None,
                 flags,
                 in_calibration,
             })
@@ -509,7 +525,7 @@ impl<const C: usize, const S: usize, const M: usize, const N: usize> Replay<C, S
         self.finished = true;
         let model = self.model;
         for channel in self.channels.iter_mut() {
-            channel.calibration = calibrate(&channel.standards, model);
+            channel.calibration = Calibration::fit(&channel.standards, model, Weighting::None);
         }
         for m in self.measurements.iter_mut() {
             let Some(channel) = self.channels.get(m.channel) else {
@@ -522,15 +538,25 @@ impl<const C: usize, const S: usize, const M: usize, const N: usize> Replay<C, S
                 Err(_) => m.flags.insert(Flag::NoCalibration),
                 // A low signal gives only a lower bound of the absorbance: no concentration.
                 Ok(_) if p.flags.contains(Flag::LowSignal) => {}
-                Ok(cal) => {
-                    let (concentration, interval, flags) =
-                        cal.quantify(f64::from(p.absorbance.value()));
-                    m.quantity = Quantity {
-                        concentration,
-                        interval,
-                    };
-                    m.flags = m.flags.union(flags);
-                }
+                Ok(cal) => match cal.quantify(p.absorbance, 1, Dilution::NONE, m.flags) {
+                    Ok(mut q) => {
+                        if m.in_calibration {
+                            // A standard of the fit lies in the calibrated range by definition;
+                            // a back-calculated value a hair above the top is not extrapolation.
+                            q.flags.remove(Flag::AboveRange);
+                        }
+                        m.flags = m.flags.union(q.flags);
+                        m.quantified = Some(q);
+                    }
+                    // Beyond the top of a quadratic curve: no concentration gives this absorbance.
+                    Err(QuantifyError::BeyondCurve) => m.flags.insert(Flag::AboveRange),
+                    Err(e) => {
+                        return Err(ReplayError {
+                            line: m.line,
+                            kind: ReplayErrorKind::Quantify(e),
+                        })
+                    }
+                },
             }
         }
         Ok(())

@@ -21,6 +21,7 @@ pub mod instrument;
 pub mod limits;
 pub mod math;
 pub mod net_signal;
+pub mod persistence;
 pub mod photometry;
 pub mod quantification;
 pub mod robust;

@@ -1,0 +1,446 @@
+//! Storage traits of our own, and their implementation over `sequential-storage` on NOR flash.
+//!
+//! Two small traits say what the typed layer needs and nothing more:
+//!
+//! - [`RecordMap`]: the latest record under a [`RecordKey`] (a record kind and a channel);
+//!   calibrations and method settings live here.
+//! - [`RecordRing`]: records appended in order, the oldest dropped when space runs out; the
+//!   result log lives here.
+//!
+//! [`FlashStore`] implements both over one NOR flash device (anything implementing the
+//! `embedded-storage-async` `NorFlash` trait; wrap a blocking HAL driver in
+//! [`BlockingFlash`](super::BlockingFlash)). It gives two page ranges to `sequential-storage`
+//! (major version 8, pinned): its map for the keyed records and its queue for the ring, and it
+//! drives their async operations with [`block_on`](super::block_on), so every call here blocks
+//! until the flash work is done. Wear levelling, power-fail safety of the flash layout and the
+//! skipping of half-written items are that library's; our record CRC checks every byte again.
+//!
+//! No cache is used: each operation scans the flash (a few pages), which keeps the RAM of the
+//! store to one scratch buffer and makes it safe to rebuild the store after any reset.
+
+use core::cell::Cell;
+use core::ops::{ControlFlow, Range};
+
+use embedded_storage_async::nor_flash::{NorFlash, NorFlashError, NorFlashErrorKind};
+use sequential_storage::cache::{Cache, Uncached};
+use sequential_storage::map::{MapConfig, MapStorage, SerializationError, Value};
+use sequential_storage::queue::{QueueConfig, QueueStorage};
+
+use super::block_on;
+use super::record::{DecodeError, EncodeError, RecordKind};
+use super::{CalibrationRecord, MethodSettings, ResultEntry};
+
+/// A value that encodes itself as one framed record (implemented by the record types).
+pub trait Encode {
+    /// Encodes into `buf`; returns the bytes used.
+    fn encode_record(&self, buf: &mut [u8]) -> Result<usize, EncodeError>;
+}
+
+impl Encode for MethodSettings {
+    fn encode_record(&self, buf: &mut [u8]) -> Result<usize, EncodeError> {
+        self.encode(buf)
+    }
+}
+
+impl Encode for ResultEntry {
+    fn encode_record(&self, buf: &mut [u8]) -> Result<usize, EncodeError> {
+        self.encode(buf)
+    }
+}
+
+impl Encode for CalibrationRecord {
+    fn encode_record(&self, buf: &mut [u8]) -> Result<usize, EncodeError> {
+        self.encode(buf)
+    }
+}
+
+/// Key of a record in a [`RecordMap`]: what it is and which channel it belongs to.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RecordKey {
+    /// The record kind.
+    pub kind: RecordKind,
+    /// The channel.
+    pub channel: u8,
+}
+
+impl RecordKey {
+    /// The key as stored in flash: kind byte high, channel low.
+    pub const fn to_u16(self) -> u16 {
+        ((self.kind as u16) << 8) | self.channel as u16
+    }
+}
+
+/// Why a storage operation failed.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum StoreError {
+    /// The flash driver reported an error (a power loss shows as `Other`).
+    Flash(NorFlashErrorKind),
+    /// The map is full: the latest records of all keys do not fit in its pages (see the
+    /// capacity rules in the [`persistence`](super) docs).
+    Full,
+    /// The flash layout is damaged beyond what the library could repair; erase the range.
+    Corrupted,
+    /// The record can never fit in one page of this flash.
+    TooBig,
+    /// The record could not be encoded.
+    Encode(EncodeError),
+    /// An internal inconsistency (a bug in lumisorb or the flash library); please report.
+    Internal,
+}
+
+impl core::fmt::Display for StoreError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        match self {
+            StoreError::Flash(kind) => write!(f, "flash error: {kind}"),
+            StoreError::Full => f.write_str("storage full"),
+            StoreError::Corrupted => f.write_str("storage corrupted beyond repair"),
+            StoreError::TooBig => f.write_str("record too big for a flash page"),
+            StoreError::Encode(e) => write!(f, "cannot encode record: {e}"),
+            StoreError::Internal => f.write_str("internal storage error"),
+        }
+    }
+}
+
+#[cfg(feature = "std")]
+impl std::error::Error for StoreError {}
+
+impl<E: NorFlashError> From<sequential_storage::Error<E>> for StoreError {
+    fn from(e: sequential_storage::Error<E>) -> Self {
+        match e {
+            sequential_storage::Error::Storage { value, .. } => StoreError::Flash(value.kind()),
+            sequential_storage::Error::FullStorage => StoreError::Full,
+            sequential_storage::Error::Corrupted { .. } => StoreError::Corrupted,
+            sequential_storage::Error::ItemTooBig => StoreError::TooBig,
+            _ => StoreError::Internal,
+        }
+    }
+}
+
+/// Why a typed record could not be loaded.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum LoadError {
+    /// The storage failed.
+    Store(StoreError),
+    /// The stored bytes are not a valid record of the kind asked for.
+    Record(DecodeError),
+}
+
+impl core::fmt::Display for LoadError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        match self {
+            LoadError::Store(e) => write!(f, "{e}"),
+            LoadError::Record(e) => write!(f, "stored record invalid: {e}"),
+        }
+    }
+}
+
+#[cfg(feature = "std")]
+impl std::error::Error for LoadError {}
+
+impl From<StoreError> for LoadError {
+    fn from(e: StoreError) -> Self {
+        LoadError::Store(e)
+    }
+}
+
+impl From<DecodeError> for LoadError {
+    fn from(e: DecodeError) -> Self {
+        LoadError::Record(e)
+    }
+}
+
+/// Latest record per key.
+pub trait RecordMap {
+    /// Stores `record` under `key`, replacing the previous one only once the new one is
+    /// complete: after a power loss at any point, the key holds the old or the new record.
+    fn store_record(&mut self, key: RecordKey, record: &dyn Encode) -> Result<(), StoreError>;
+
+    /// Hands the bytes of the latest record under `key` to `read`; `None` if there is none.
+    fn fetch_record<T>(
+        &mut self,
+        key: RecordKey,
+        read: impl FnOnce(&[u8]) -> T,
+    ) -> Result<Option<T>, StoreError>;
+}
+
+/// Records in append order; the oldest are dropped when space runs out.
+pub trait RecordRing {
+    /// Appends `record`; after a power loss the ring holds it whole or not at all.
+    fn append_record(&mut self, record: &dyn Encode) -> Result<(), StoreError>;
+
+    /// Hands every record, oldest first, to `visit` until it breaks.
+    fn visit_records(
+        &mut self,
+        visit: impl FnMut(&[u8]) -> ControlFlow<()>,
+    ) -> Result<(), StoreError>;
+
+    /// Drops every record.
+    fn clear_records(&mut self) -> Result<(), StoreError>;
+}
+
+/// Page ranges of one flash device given to the map and to the ring (byte offsets in the
+/// driver's address space, page-aligned, not overlapping; the map needs at least 2 pages, the
+/// ring at least 1).
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct StoreLayout {
+    /// Pages for calibrations and method settings.
+    pub map: Range<u32>,
+    /// Pages for the result log.
+    pub log: Range<u32>,
+}
+
+/// Why a [`StoreLayout`] does not suit a flash.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum LayoutError {
+    /// The map range is not page-aligned or shorter than 2 pages.
+    MapRange,
+    /// The log range is not page-aligned or shorter than 1 page.
+    LogRange,
+    /// The two ranges overlap.
+    Overlap,
+    /// A range extends past the end of the flash.
+    OutsideFlash,
+    /// A page cannot hold the largest record (a calibration).
+    PagesTooSmall,
+    /// The flash word is larger than the store's scratch alignment allows (32 bytes).
+    WordTooLarge,
+}
+
+impl core::fmt::Display for LayoutError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(match self {
+            LayoutError::MapRange => "map range not page-aligned or under 2 pages",
+            LayoutError::LogRange => "log range not page-aligned or under 1 page",
+            LayoutError::Overlap => "map and log ranges overlap",
+            LayoutError::OutsideFlash => "range outside the flash",
+            LayoutError::PagesTooSmall => "flash pages too small for a calibration record",
+            LayoutError::WordTooLarge => "flash word over 32 bytes",
+        })
+    }
+}
+
+#[cfg(feature = "std")]
+impl std::error::Error for LayoutError {}
+
+/// Bytes of the map key in flash.
+pub const KEY_LEN: usize = 2;
+
+/// The largest record any store holds (a calibration with a full set of standards).
+pub const MAX_RECORD_LEN: usize = max3(
+    CalibrationRecord::MAX_ENCODED_LEN,
+    MethodSettings::ENCODED_LEN,
+    ResultEntry::MAX_ENCODED_LEN,
+);
+
+const fn max3(a: usize, b: usize, c: usize) -> usize {
+    let ab = if a > b { a } else { b };
+    if ab > c {
+        ab
+    } else {
+        c
+    }
+}
+
+/// Size of the store's scratch buffer: key plus largest record, rounded up to 32 bytes (the
+/// largest flash word `sequential-storage` supports).
+pub const SCRATCH_LEN: usize = (KEY_LEN + MAX_RECORD_LEN).div_ceil(32) * 32;
+
+/// Word-aligned scratch (some flash drivers need aligned RAM buffers).
+#[derive(Clone)]
+#[repr(C, align(4))]
+struct Scratch([u8; SCRATCH_LEN]);
+
+type NoCache = Cache<Uncached, Uncached, Uncached, u16>;
+type NoQueueCache = Cache<Uncached, Uncached, Uncached, ()>;
+
+/// Calibrations, method settings and the result log on one NOR flash (see the module docs).
+///
+/// RAM: the flash driver plus two ranges plus [`SCRATCH_LEN`] bytes of scratch
+/// (`size_of::<FlashStore<F>>()`; the figures are in the [`persistence`](super) docs).
+pub struct FlashStore<F: NorFlash> {
+    flash: F,
+    map: Range<u32>,
+    log: Range<u32>,
+    scratch: Scratch,
+}
+
+impl<F: NorFlash> core::fmt::Debug for FlashStore<F> {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.debug_struct("FlashStore")
+            .field("map", &self.map)
+            .field("log", &self.log)
+            .finish_non_exhaustive()
+    }
+}
+
+/// The map and queue views over borrowed flash (built per operation; they hold no state).
+fn map_over<F: NorFlash>(
+    flash: &mut F,
+    range: Range<u32>,
+) -> Result<MapStorage<u16, &mut F, NoCache>, StoreError> {
+    let config = MapConfig::try_new(range).map_err(|_| StoreError::Internal)?;
+    Ok(MapStorage::new(flash, config, Cache::new_uncached()))
+}
+
+fn queue_over<F: NorFlash>(
+    flash: &mut F,
+    range: Range<u32>,
+) -> Result<QueueStorage<&mut F, NoQueueCache>, StoreError> {
+    let config = QueueConfig::try_new(range).map_err(|_| StoreError::Internal)?;
+    Ok(QueueStorage::new(flash, config, Cache::new_uncached()))
+}
+
+impl<F: NorFlash> FlashStore<F> {
+    /// A store over `flash` with `layout`. Nothing is written: existing contents are used as
+    /// they are (use [`FlashStore::erase_all`] for a fresh start).
+    pub fn new(flash: F, layout: StoreLayout) -> Result<Self, LayoutError> {
+        let StoreLayout { map, log } = layout;
+        if F::WRITE_SIZE > 32 || F::READ_SIZE > 32 {
+            return Err(LayoutError::WordTooLarge);
+        }
+        MapConfig::<F>::try_new(map.clone()).map_err(|_| LayoutError::MapRange)?;
+        QueueConfig::<F>::try_new(log.clone()).map_err(|_| LayoutError::LogRange)?;
+        if map.start < log.end && log.start < map.end {
+            return Err(LayoutError::Overlap);
+        }
+        let capacity = flash.capacity();
+        let fits = |r: &Range<u32>| usize::try_from(r.end).is_ok_and(|end| end <= capacity);
+        if !fits(&map) || !fits(&log) {
+            return Err(LayoutError::OutsideFlash);
+        }
+        if Self::max_item_data() < KEY_LEN + MAX_RECORD_LEN {
+            return Err(LayoutError::PagesTooSmall);
+        }
+        Ok(FlashStore {
+            flash,
+            map,
+            log,
+            scratch: Scratch([0; SCRATCH_LEN]),
+        })
+    }
+
+    /// Largest item data (key + record) one page of this flash holds.
+    fn max_item_data() -> usize {
+        let word = F::WRITE_SIZE.max(F::READ_SIZE);
+        let overhead = MapStorage::<u16, F, NoCache>::item_overhead_size() as usize;
+        F::ERASE_SIZE
+            .saturating_sub(2 * word)
+            .saturating_sub(overhead)
+    }
+
+    /// Bytes one stored item of `data_len` bytes takes in flash (header and word padding).
+    pub fn item_footprint(data_len: usize) -> usize {
+        let word = F::WRITE_SIZE.max(F::READ_SIZE).max(1);
+        let overhead = MapStorage::<u16, F, NoCache>::item_overhead_size() as usize;
+        overhead.saturating_add(data_len.div_ceil(word).saturating_mul(word))
+    }
+
+    /// How many items of `data_len` bytes fit in one page of this flash.
+    pub fn items_per_page(data_len: usize) -> usize {
+        let word = F::WRITE_SIZE.max(F::READ_SIZE);
+        let usable = F::ERASE_SIZE.saturating_sub(2 * word);
+        usable
+            .checked_div(Self::item_footprint(data_len))
+            .unwrap_or(0)
+    }
+
+    /// Erases both ranges: every calibration, setting and logged result is gone.
+    pub fn erase_all(&mut self) -> Result<(), StoreError> {
+        block_on(self.flash.erase(self.map.start, self.map.end))
+            .map_err(|e| StoreError::Flash(e.kind()))?;
+        block_on(self.flash.erase(self.log.start, self.log.end))
+            .map_err(|e| StoreError::Flash(e.kind()))
+    }
+
+    /// The flash driver.
+    pub fn flash_mut(&mut self) -> &mut F {
+        &mut self.flash
+    }
+
+    /// Gives the flash driver back.
+    pub fn into_flash(self) -> F {
+        self.flash
+    }
+}
+
+/// Lets `sequential-storage` serialize a record straight into its buffer.
+struct Encoded<'r> {
+    record: &'r dyn Encode,
+    error: Cell<Option<EncodeError>>,
+}
+
+impl<'a> Value<'a> for Encoded<'_> {
+    fn serialize_into(&self, buffer: &mut [u8]) -> Result<usize, SerializationError> {
+        self.record.encode_record(buffer).map_err(|e| {
+            self.error.set(Some(e));
+            SerializationError::InvalidData
+        })
+    }
+
+    fn deserialize_from(_buffer: &'a [u8]) -> Result<(Self, usize), SerializationError> {
+        Err(SerializationError::InvalidFormat)
+    }
+}
+
+impl<F: NorFlash> RecordMap for FlashStore<F> {
+    fn store_record(&mut self, key: RecordKey, record: &dyn Encode) -> Result<(), StoreError> {
+        let mut map = map_over(&mut self.flash, self.map.clone())?;
+        let value = Encoded {
+            record,
+            error: Cell::new(None),
+        };
+        let result = block_on(map.store_item(&mut self.scratch.0, &key.to_u16(), &value));
+        if let Some(e) = value.error.get() {
+            return Err(StoreError::Encode(e));
+        }
+        result.map_err(StoreError::from)
+    }
+
+    fn fetch_record<T>(
+        &mut self,
+        key: RecordKey,
+        read: impl FnOnce(&[u8]) -> T,
+    ) -> Result<Option<T>, StoreError> {
+        let mut map = map_over(&mut self.flash, self.map.clone())?;
+        let found = block_on(map.fetch_item::<&[u8]>(&mut self.scratch.0, &key.to_u16()))?;
+        Ok(found.map(read))
+    }
+}
+
+impl<F: NorFlash> RecordRing for FlashStore<F> {
+    fn append_record(&mut self, record: &dyn Encode) -> Result<(), StoreError> {
+        let n = record
+            .encode_record(&mut self.scratch.0)
+            .map_err(StoreError::Encode)?;
+        let data = self.scratch.0.get(..n).ok_or(StoreError::Internal)?;
+        let mut queue = queue_over(&mut self.flash, self.log.clone())?;
+        block_on(queue.push(data, true)).map_err(StoreError::from)
+    }
+
+    fn visit_records(
+        &mut self,
+        mut visit: impl FnMut(&[u8]) -> ControlFlow<()>,
+    ) -> Result<(), StoreError> {
+        let mut queue = queue_over(&mut self.flash, self.log.clone())?;
+        let scratch = &mut self.scratch.0;
+        block_on(async {
+            let mut iter = queue.iter().await?;
+            while let Some(entry) = iter.next(scratch).await? {
+                if visit(&entry).is_break() {
+                    break;
+                }
+            }
+            Ok::<(), sequential_storage::Error<F::Error>>(())
+        })
+        .map_err(StoreError::from)
+    }
+
+    fn clear_records(&mut self) -> Result<(), StoreError> {
+        block_on(self.flash.erase(self.log.start, self.log.end))
+            .map_err(|e| StoreError::Flash(e.kind()))
+    }
+}

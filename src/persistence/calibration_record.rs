@@ -22,6 +22,7 @@
 
 use super::codec::{Reader, Writer};
 use super::record::{self, DecodeError, EncodeError, Record, RecordKind, FRAME_OVERHEAD};
+use super::store::{LoadError, RecordKey, RecordMap, StoreError};
 use super::MethodId;
 
 /// Most standards a stored calibration holds.
@@ -121,6 +122,33 @@ impl CalibrationRecord {
     /// Decodes a framed record (exactly `bytes`).
     pub fn decode(bytes: &[u8]) -> Result<Self, DecodeError> {
         record::decode(bytes)
+    }
+
+    /// The map key of a channel's calibration.
+    pub const fn key(channel: u8) -> RecordKey {
+        RecordKey {
+            kind: RecordKind::Calibration,
+            channel,
+        }
+    }
+
+    /// Stores the calibration under its channel, replacing the previous one.
+    pub fn save<M: RecordMap>(&self, map: &mut M) -> Result<(), StoreError> {
+        map.store_record(Self::key(self.channel), self)
+    }
+
+    /// The calibration stored for `channel`, `None` if there is none.
+    pub fn load<M: RecordMap>(map: &mut M, channel: u8) -> Result<Option<Self>, LoadError> {
+        match map.fetch_record(Self::key(channel), Self::decode)? {
+            None => Ok(None),
+            Some(Err(e)) => Err(LoadError::Record(e)),
+            Some(Ok(c)) if c.channel != channel => {
+                Err(LoadError::Record(DecodeError::OutOfRange {
+                    field: "channel",
+                }))
+            }
+            Some(Ok(c)) => Ok(Some(c)),
+        }
     }
 }
 

@@ -10,13 +10,20 @@
 //!
 //! Every byte programmed and every byte erased is one *byte operation*. After
 //! [`MockFlash::cut_power_after`]`(k)` the next `k` byte operations complete and the one after
-//! them is torn: a byte being programmed gets only some of its zero bits (`new | 0xAA`), a byte
-//! being erased gets only some of its one bits (`old | 0x55`), which is one of the "undefined"
-//! outcomes the trait docs allow. From then on every operation fails with
+//! them is torn: a byte being programmed gets only some of its zero bits (by default
+//! `new | 0xAA`), a byte being erased gets only some of its one bits (by default `old | 0x55`),
+//! which is one of the "undefined" outcomes the trait docs allow ([`MockFlash::with_tear`]
+//! chooses other patterns). From then on every operation fails with
 //! [`MockFlashError::PowerLost`] until [`MockFlash::restart`], which keeps the flash contents, as
 //! a real flash keeps them across a reset. An erase proceeds from its lowest address upwards.
 //! [`MockFlash::byte_ops`] counts the byte operations done so far, so that a test can measure how
 //! long a save is and then cut the power at every position inside it.
+//!
+//! # Rewrites
+//!
+//! By default a write to a word that is not erased fails ([`MockFlashError::AlreadyWritten`]),
+//! as on ECC flash. [`MockFlash::with_rewrite`] makes such a write AND the bits in instead, as
+//! flash without ECC does (bits only go from 1 to 0).
 
 use embedded_storage::nor_flash::{ErrorType, NorFlashError, NorFlashErrorKind};
 
@@ -76,6 +83,9 @@ pub struct MockFlash<const SIZE: usize, const PAGE: usize = 1024, const WORD: us
     cut_after: Option<u64>,
     powered: bool,
     byte_ops: u64,
+    program_tear: u8,
+    erase_tear: u8,
+    rewrite: bool,
 }
 
 impl<const SIZE: usize, const PAGE: usize, const WORD: usize> Default
@@ -110,7 +120,27 @@ impl<const SIZE: usize, const PAGE: usize, const WORD: usize> MockFlash<SIZE, PA
             cut_after: None,
             powered: true,
             byte_ops: 0,
+            program_tear: 0xAA,
+            erase_tear: 0x55,
+            rewrite: false,
         }
+    }
+
+    /// The same flash with other tear patterns: a torn programmed byte becomes
+    /// `new | program_mask`, a torn erased byte `old | erase_mask`.
+    #[must_use]
+    pub const fn with_tear(mut self, program_mask: u8, erase_mask: u8) -> Self {
+        self.program_tear = program_mask;
+        self.erase_tear = erase_mask;
+        self
+    }
+
+    /// The same flash, accepting (`true`) or refusing (`false`, the default) writes to words
+    /// that are not erased; accepted writes AND their bits in.
+    #[must_use]
+    pub const fn with_rewrite(mut self, allow: bool) -> Self {
+        self.rewrite = allow;
+        self
     }
 
     /// The flash contents.
@@ -199,7 +229,7 @@ impl<const SIZE: usize, const PAGE: usize, const WORD: usize> MockFlash<SIZE, PA
             .get(range.clone())
             .ok_or(MockFlashError::OutOfBounds)?;
         for (i, word) in target.chunks(WORD).enumerate() {
-            if word.iter().any(|b| *b != 0xFF) {
+            if !self.rewrite && word.iter().any(|b| *b != 0xFF) {
                 let at = range.start.saturating_add(i.saturating_mul(WORD));
                 return Err(MockFlashError::AlreadyWritten {
                     offset: u32::try_from(at).unwrap_or(u32::MAX),
@@ -210,7 +240,11 @@ impl<const SIZE: usize, const PAGE: usize, const WORD: usize> MockFlash<SIZE, PA
             let live = self.tick();
             if let Some(byte) = self.bytes.get_mut(index) {
                 // NOR programming can only clear bits; a torn byte gets some of them.
-                *byte &= if live { value } else { value | 0xAA };
+                *byte &= if live {
+                    value
+                } else {
+                    value | self.program_tear
+                };
             }
             if !live {
                 return Err(MockFlashError::PowerLost);
@@ -232,7 +266,7 @@ impl<const SIZE: usize, const PAGE: usize, const WORD: usize> MockFlash<SIZE, PA
         for index in range {
             let live = self.tick();
             if let Some(byte) = self.bytes.get_mut(index) {
-                *byte = if live { 0xFF } else { *byte | 0x55 };
+                *byte = if live { 0xFF } else { *byte | self.erase_tear };
             }
             if !live {
                 return Err(MockFlashError::PowerLost);
@@ -345,6 +379,17 @@ mod tests {
         f.restart();
         f.read_at(2, &mut out).unwrap();
         assert_eq!(out, [0xAA]);
+    }
+
+    #[test]
+    fn rewrite_and_tear_options() {
+        let mut f = Flash::new().with_rewrite(true).with_tear(0xFE, 0x01);
+        f.program(0, &[0xF0; 4]).unwrap();
+        f.program(0, &[0x3C; 4]).unwrap();
+        assert_eq!(f.bytes()[..4], [0x30; 4]);
+        f.cut_power_after(0);
+        assert_eq!(f.program(4, &[0; 4]), Err(MockFlashError::PowerLost));
+        assert_eq!(f.bytes()[4], 0xFE);
     }
 
     #[test]

@@ -159,8 +159,10 @@ pub struct ResultEntry {
 }
 
 impl ResultEntry {
-    /// Largest encoded size (framing included).
+    /// Largest encoded size (framing included): 16-character id, with a concentration.
     pub const MAX_ENCODED_LEN: usize = FRAME_OVERHEAD + 21 + SampleId::MAX_LEN + 12;
+    /// Smallest encoded size (framing included): 1-character id, no concentration.
+    pub const MIN_ENCODED_LEN: usize = FRAME_OVERHEAD + 21 + 1;
 
     /// Checks the fields that the types do not already guarantee.
     pub fn validate(&self) -> Result<(), &'static str> {

@@ -277,21 +277,79 @@ impl<F: NorFlash> core::fmt::Debug for FlashStore<F> {
     }
 }
 
+/// The flash as the library sees it: reads in whole flash words.
+///
+/// `sequential-storage` decides whether a page is closed from `READ_SIZE` bytes at the page's
+/// end, while the end marker it writes is a whole word. On a flash that reads bytes
+/// (`READ_SIZE` 1) but writes words of 4, 8 or 32 bytes, a power cut inside the marker word
+/// leaves its last byte erased: the page looks open, and the library writes the marker word a
+/// second time, which ECC flash (many STM32 families) refuses, so every later save would fail.
+/// The power-loss tests found this. Presenting `READ_SIZE` = the write word makes the library
+/// read the whole marker word, so a partly written marker counts as written (it needs 4 zero
+/// bits, see the module docs). Every read stays a multiple of the driver's own `READ_SIZE`
+/// because the library requires write and read sizes to be multiples of each other.
+struct WholeWords<'f, F>(&'f mut F);
+
+const fn word_of<F: NorFlash>() -> usize {
+    if F::WRITE_SIZE > F::READ_SIZE {
+        F::WRITE_SIZE
+    } else {
+        F::READ_SIZE
+    }
+}
+
+impl<F: NorFlash> embedded_storage_async::nor_flash::ErrorType for WholeWords<'_, F> {
+    type Error = F::Error;
+}
+
+impl<F: NorFlash> embedded_storage_async::nor_flash::ReadNorFlash for WholeWords<'_, F> {
+    const READ_SIZE: usize = word_of::<F>();
+
+    async fn read(&mut self, offset: u32, bytes: &mut [u8]) -> Result<(), Self::Error> {
+        self.0.read(offset, bytes).await
+    }
+
+    fn capacity(&self) -> usize {
+        self.0.capacity()
+    }
+}
+
+impl<F: NorFlash> NorFlash for WholeWords<'_, F> {
+    const WRITE_SIZE: usize = F::WRITE_SIZE;
+    const ERASE_SIZE: usize = F::ERASE_SIZE;
+
+    async fn erase(&mut self, from: u32, to: u32) -> Result<(), Self::Error> {
+        self.0.erase(from, to).await
+    }
+
+    async fn write(&mut self, offset: u32, bytes: &[u8]) -> Result<(), Self::Error> {
+        self.0.write(offset, bytes).await
+    }
+}
+
 /// The map and queue views over borrowed flash (built per operation; they hold no state).
 fn map_over<F: NorFlash>(
     flash: &mut F,
     range: Range<u32>,
-) -> Result<MapStorage<u16, &mut F, NoCache>, StoreError> {
+) -> Result<MapStorage<u16, WholeWords<'_, F>, NoCache>, StoreError> {
     let config = MapConfig::try_new(range).map_err(|_| StoreError::Internal)?;
-    Ok(MapStorage::new(flash, config, Cache::new_uncached()))
+    Ok(MapStorage::new(
+        WholeWords(flash),
+        config,
+        Cache::new_uncached(),
+    ))
 }
 
 fn queue_over<F: NorFlash>(
     flash: &mut F,
     range: Range<u32>,
-) -> Result<QueueStorage<&mut F, NoQueueCache>, StoreError> {
+) -> Result<QueueStorage<WholeWords<'_, F>, NoQueueCache>, StoreError> {
     let config = QueueConfig::try_new(range).map_err(|_| StoreError::Internal)?;
-    Ok(QueueStorage::new(flash, config, Cache::new_uncached()))
+    Ok(QueueStorage::new(
+        WholeWords(flash),
+        config,
+        Cache::new_uncached(),
+    ))
 }
 
 impl<F: NorFlash> FlashStore<F> {

@@ -9,25 +9,23 @@
 
 use core::ops::ControlFlow;
 
+use lumisorb::calibration::{Calibration, CalibrationSet, Model, Standard, Weighting};
 use lumisorb::persistence::{
     for_each_entry, CalibrationRecord, FlashStore, MethodId, MethodSettings, MockFlash,
-    ResultEntry, SampleId, StoreLayout, StoredStandard,
+    ResultEntry, SampleId, StoreLayout,
 };
 use lumisorb::{Absorbance, Flags};
 
 type Flash = MockFlash<6144, 1024, 4>;
 
 fn calibration(channel: u8, sequence: u32) -> CalibrationRecord {
-    let mut standards = heapless::Vec::new();
+    // Invented standards: 16 points, 8 concentrations in duplicate, slope 0.2 per unit.
+    let mut set = CalibrationSet::new();
     for i in 0..16u16 {
-        let c = f32::from(i) * 0.5;
-        standards
-            .push(StoredStandard {
-                concentration: c,
-                absorbance: 0.01 + 0.2 * c + sequence as f32 * 1e-4,
-                absorbance_sd: 0.002,
-                replicates: 3,
-            })
+        let c = f32::from(i / 2) * 0.5;
+        let wobble = if i % 2 == 0 { 0.003 } else { -0.002 };
+        let a = 0.01 + 0.2 * c + wobble + sequence as f32 * 1e-4;
+        set.push(Standard::with_replicates(c, Absorbance::new(a).unwrap(), 0.002, 3).unwrap())
             .unwrap();
     }
     CalibrationRecord {
@@ -36,12 +34,7 @@ fn calibration(channel: u8, sequence: u32) -> CalibrationRecord {
         path_length_mm: 10.0,
         created_s: 5_000 + sequence,
         sequence,
-        model: 1,
-        weighting: 0,
-        standards,
-        coefficients: [0.01 + sequence as f64 * 1e-4, 0.2, 0.0],
-        residual_sd: 0.001,
-        r_squared: 0.9995,
+        calibration: Calibration::fit(&set, Model::Linear, Weighting::None).unwrap(),
     }
 }
 

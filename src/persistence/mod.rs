@@ -14,7 +14,9 @@ mod staleness;
 mod store;
 
 pub use blocking::{block_on, BlockingFlash};
-pub use calibration_record::{CalibrationRecord, StoredStandard, MAX_STANDARDS};
+pub use calibration_record::{
+    CalibrationRecord, MAX_STANDARDS, REFIT_TOLERANCE_F32, REFIT_TOLERANCE_F64,
+};
 pub use method_record::{MethodId, MethodSettings};
 pub use mock_flash::{MockFlash, MockFlashError};
 pub use record::{DecodeError, EncodeError, RecordKind};

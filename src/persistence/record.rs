@@ -23,10 +23,11 @@
 //!
 //! Decoding checks, in this order: enough bytes for a header, the magic, enough bytes for the
 //! declared length (no more, no less), the CRC, the kind, the version, then every field (ranges,
-//! finiteness, consistency). A corrupted version byte therefore shows as a bad CRC; an
+//! finiteness, consistency; a calibration is also refitted). A corrupted version byte therefore shows as a bad CRC; an
 //! [`DecodeError::UnknownVersion`] means an intact record of a format this firmware does not know.
 
 use super::codec::{Reader, Writer};
+use crate::calibration::CalibrationError;
 
 /// The two bytes every record starts with.
 pub const MAGIC: [u8; 2] = *b"LS";
@@ -107,6 +108,13 @@ pub enum DecodeError {
         /// Name of the field.
         field: &'static str,
     },
+    /// A stored calibration's standards could not be fitted again.
+    RefitFailed(CalibrationError),
+    /// A stored calibration's statistics differ from those of the refit of its standards.
+    RefitMismatch {
+        /// The first statistic that differs.
+        field: &'static str,
+    },
 }
 
 impl core::fmt::Display for DecodeError {
@@ -125,6 +133,13 @@ impl core::fmt::Display for DecodeError {
             }
             DecodeError::OutOfRange { field } => write!(f, "field `{field}` out of range"),
             DecodeError::NonFinite { field } => write!(f, "field `{field}` not finite"),
+            DecodeError::RefitFailed(e) => write!(f, "stored standards do not refit: {e}"),
+            DecodeError::RefitMismatch { field } => {
+                write!(
+                    f,
+                    "stored `{field}` differs from the refit of the standards"
+                )
+            }
         }
     }
 }

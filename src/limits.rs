@@ -182,7 +182,7 @@ pub fn method_detection_limit(
     let from_blanks = blanks.map(mdl_from_blanks).transpose()?;
     let mdl = from_blanks.map_or(from_spikes, |b| b.max(from_spikes));
     let meets_minimum_replicates =
-        spiked.n >= EPA_MIN_REPLICATES && blanks.map_or(true, |b| b.n >= EPA_MIN_REPLICATES);
+        spiked.n >= EPA_MIN_REPLICATES && blanks.is_none_or(|b| b.n >= EPA_MIN_REPLICATES);
     Ok(MethodDetectionLimit {
         mdl,
         from_spikes,

@@ -256,7 +256,7 @@ impl Fit {
             .iter()
             .take(p)
             .enumerate()
-            .any(|(j, row)| row.get(j).map_or(true, |d| d.is_nan() || d.abs() <= tol));
+            .any(|(j, row)| row.get(j).is_none_or(|d| d.is_nan() || d.abs() <= tol));
         if rank_deficient {
             return Err(FitError::Degenerate);
         }

@@ -108,7 +108,9 @@ pub struct SequenceConfig {
     pub exposure: ExposureConfig,
     /// Run auto-exposure at the start of every blank (default true).
     pub auto_exposure: bool,
-    /// Lit reads per measurement (there is one dark read more, first and last; >= 1).
+    /// Lit reads per measurement (there is one dark read more, first and last; >= 1; default
+    /// 15, so the 16 dark reads still fit the robust buffers, see
+    /// [`SERIES_CAPACITY`](super::sequencer::SERIES_CAPACITY)).
     pub pairs: u16,
     /// A whole blank or sample measurement taking longer than this is an error (ms).
     pub measurement_timeout_ms: u32,
@@ -127,7 +129,7 @@ impl Default for SequenceConfig {
             warm_up: WarmUpConfig::default(),
             exposure: ExposureConfig::default(),
             auto_exposure: true,
-            pairs: 16,
+            pairs: 15,
             measurement_timeout_ms: 60_000,
             idle_lit: true,
             series: SeriesConfig::default(),

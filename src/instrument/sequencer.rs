@@ -39,9 +39,11 @@ use crate::net_signal::DarkLitSeries;
 use crate::net_signal::{Level, NetSignal};
 use crate::photometry::PhotometricResult;
 
-/// Capacity of the robust buffers of a blank or sample measurement (reads beyond it are
-/// averaged plainly; see [`crate::net_signal`]).
-pub const SERIES_CAPACITY: usize = 32;
+/// Capacity of the robust buffers of a blank or sample measurement: 16 reads of each kind,
+/// enough for the default 15 lit and 16 dark reads (reads beyond it are averaged plainly; see
+/// [`crate::net_signal`]). Each read of capacity costs about 20 bytes of stack in a
+/// measurement (buffers, the copies the robust estimate sorts).
+pub const SERIES_CAPACITY: usize = 16;
 
 /// The hardware a sequencer drives.
 pub struct Hardware<P, W, D, R, T, C> {

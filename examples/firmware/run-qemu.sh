@@ -1,0 +1,154 @@
+#!/usr/bin/env bash
+# Firmware on emulated boards: builds examples/firmware for mps2-an386 (Cortex-M4F,
+# thumbv7em-none-eabihf) and microbit (Cortex-M0, thumbv6m-none-eabi), runs both under QEMU
+# with semihosting, compares their printed results with the host library's on the same
+# simulated counts (digit for digit), and prints the size and stack report.
+#
+# Fails when a board's run fails (its own checks), when its results differ from the host's,
+# or when a static-RAM or stack budget is exceeded. The flash figure is reported against its
+# budget but does not fail the run (see DEVELOPERS.md, "Firmware on an emulated board").
+set -euo pipefail
+here="$(cd "$(dirname "$0")" && pwd)"
+root="$(cd "$here/../.." && pwd)"
+target_dir="${CARGO_TARGET_DIR:-$here/target}"
+work="$(mktemp -d)"
+trap 'rm -rf "$work"' EXIT
+
+# Budgets (bytes).
+FLASH_BUDGET=32768      # the pipeline, thumbv7em-none-eabihf, no formatting
+STATIC_RAM_BUDGET=4096  # .data + .bss + .uninit, thumbv7em-none-eabihf
+STACK_BUDGET=2048       # one full measurement (auto-exposure, blank, sample)
+
+need_tools() {
+  command -v qemu-system-arm >/dev/null && command -v arm-none-eabi-size >/dev/null &&
+    command -v arm-none-eabi-nm >/dev/null
+}
+if ! need_tools; then
+  echo "installing qemu-system-arm and binutils-arm-none-eabi"
+  if ! { apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq \
+    --no-install-recommends qemu-system-arm binutils-arm-none-eabi; } >"$work/apt.log" 2>&1; then
+    tail -5 "$work/apt.log"
+    echo "SKIPPED: apt-get could not install qemu-system-arm / binutils-arm-none-eabi; firmware not run on emulated boards"
+    exit 0
+  fi
+fi
+for t in thumbv7em-none-eabihf thumbv6m-none-eabi; do
+  if ! rustup target list --installed 2>/dev/null | grep -qx "$t" &&
+    ! timeout 300 rustup target add "$t" >/dev/null 2>&1; then
+    echo "SKIPPED: rustup could not add target $t; firmware not run on emulated boards"
+    exit 0
+  fi
+done
+
+echo "-- host library, same pipeline source and seed"
+(cd "$root" && cargo run -q --features sim --example firmware_pipeline) >"$work/host.txt"
+
+fail=0
+run_board() { # board target cpu
+  local board=$1 target=$2 cpu=$3
+  echo "-- $board ($target): build from inside examples/firmware"
+  (cd "$here" && cargo build -q --release --bins --target "$target")
+  local elf="$target_dir/$target/release/lumisorb-firmware"
+  local status=0
+  timeout 300 qemu-system-arm -cpu "$cpu" -machine "$board" -nographic -monitor none -serial none \
+    -semihosting-config enable=on,target=native -kernel "$elf" >"$work/$board.txt" || status=$?
+  cat "$work/$board.txt"
+  if [ "$status" -ne 0 ]; then
+    echo "FAIL: $board run exited with status $status"
+    fail=1
+  fi
+  if grep -v '^board \|^stack ' "$work/$board.txt" | diff -u "$work/host.txt" - >"$work/$board.diff"; then
+    echo "$board: results equal to the host library's, digit for digit"
+  else
+    cat "$work/$board.diff"
+    echo "FAIL: $board results differ from the host library's"
+    fail=1
+  fi
+  # The pipeline without formatting must pass too (its exit status is its only output).
+  local probe="$target_dir/$target/release/size_probe"
+  status=0
+  timeout 300 qemu-system-arm -cpu "$cpu" -machine "$board" -nographic -monitor none -serial none \
+    -semihosting-config enable=on,target=native -kernel "$probe" >/dev/null || status=$?
+  if [ "$status" -ne 0 ]; then
+    echo "FAIL: $board size probe exited with status $status"
+    fail=1
+  fi
+}
+run_board mps2-an386 thumbv7em-none-eabihf cortex-m4
+run_board microbit thumbv6m-none-eabi cortex-m0
+
+section() { # elf name -> size of section (0 when absent)
+  arm-none-eabi-size -A "$1" | awk -v s="$2" '$1 == s { print $2; found = 1 } END { if (!found) print 0 }'
+}
+
+echo "-- size report (arm-none-eabi-size; flash = .vector_table + .text + .rodata + .data)"
+printf '%-12s %-26s %8s %8s %8s %8s %8s\n' board binary .text .rodata .data .bss flash
+for pair in mps2-an386:thumbv7em-none-eabihf microbit:thumbv6m-none-eabi; do
+  board=${pair%%:*}
+  target=${pair#*:}
+  for bin in lumisorb-firmware size_probe; do
+    elf="$target_dir/$target/release/$bin"
+    vt=$(section "$elf" .vector_table)
+    text=$(section "$elf" .text)
+    ro=$(section "$elf" .rodata)
+    data=$(section "$elf" .data)
+    bss=$(( $(section "$elf" .bss) + $(section "$elf" .uninit) ))
+    flash=$((vt + text + ro + data))
+    label=$bin
+    [ "$bin" = size_probe ] && label="size_probe (no printing)"
+    printf '%-12s %-26s %8d %8d %8d %8d %8d\n' "$board" "$label" "$text" "$ro" "$data" "$bss" "$flash"
+    if [ "$board" = mps2-an386 ]; then
+      if [ "$bin" = size_probe ]; then probe_flash=$flash; fi
+      ram=$((data + bss))
+      if [ "$ram" -gt "$STATIC_RAM_BUDGET" ]; then
+        echo "FAIL: $bin static RAM $ram bytes > budget $STATIC_RAM_BUDGET"
+        fail=1
+      fi
+    fi
+  done
+done
+floats=$(arm-none-eabi-nm -C "$target_dir/thumbv7em-none-eabihf/release/lumisorb-firmware" |
+  grep -c 'float_to_decimal\|float_to_exponential\|flt2dec' || true)
+echo "float formatting symbols linked in the firmware: $floats (numbers are printed as scaled integers)"
+
+echo "-- where the pipeline's flash goes (size_probe, mps2-an386; nm symbol sizes, inlined code counts where it lands)"
+arm-none-eabi-nm -C -S --size-sort "$target_dir/thumbv7em-none-eabihf/release/size_probe" |
+  awk '
+  function hex(s,   i, v) { v = 0; s = tolower(s); for (i = 1; i <= length(s); i++) v = v * 16 + index("0123456789abcdef", substr(s, i, 1)) - 1; return v }
+  $3 ~ /^[tTrR]$/ {
+    name = $4; for (i = 5; i <= NF; i++) name = name " " $i
+    g = "other (runtime, vector table, core)"
+    if (name ~ /^lumisorb::sim::/) g = "simulated photometer (lumisorb::sim)"
+    else if (name ~ /^lumisorb::instrument::/) g = "sequencer (lumisorb::instrument)"
+    else if (name ~ /^lumisorb::(calibration|quantification|limits|student_t|incomplete_beta)/) g = "calibration, quantification, t quantiles"
+    else if (name ~ /^<?lumisorb::/) g = "core photometry (counts .. photometry)"
+    else if (name ~ /^libm::/) g = "libm"
+    else if (name ~ /^compiler_builtins::|^__aeabi|^__[a-z]+[sd]f[0-9]*$/) g = "compiler_builtins (soft f64, int division)"
+    else if (name ~ /^core::slice::sort/) g = "core::slice::sort (robust medians)"
+    else if (name ~ /^size_probe::|__cortex_m_rt_main/) g = "probe main (pipeline inlined into it)"
+    sum[g] += hex($2)
+  }
+  END { for (g in sum) printf "%8d  %s\n", sum[g], g }' | sort -rn
+
+if [ "${probe_flash:-0}" -gt "$FLASH_BUDGET" ]; then
+  echo "OVER BUDGET: pipeline flash ${probe_flash} bytes > $FLASH_BUDGET on thumbv7em-none-eabihf (reported, not failed; see the breakdown above)"
+else
+  echo "pipeline flash ${probe_flash} bytes <= budget $FLASH_BUDGET on thumbv7em-none-eabihf"
+fi
+
+echo "-- stack (painted high-water mark)"
+for board in mps2-an386 microbit; do
+  line=$(grep '^stack ' "$work/$board.txt" || true)
+  echo "$board: ${line#stack }"
+  one=$(echo "$line" | sed -n 's/.*one_measurement_bytes=\([0-9]*\).*/\1/p')
+  if [ -z "$one" ] || [ "$one" -gt "$STACK_BUDGET" ]; then
+    echo "FAIL: $board stack of one measurement ${one:-unknown} bytes > budget $STACK_BUDGET"
+    fail=1
+  fi
+done
+
+if [ "$fail" -ne 0 ]; then
+  echo "firmware on emulated boards: FAILED"
+  exit 1
+fi
+echo "firmware on emulated boards: passed"

@@ -106,7 +106,7 @@ fn brook_round() -> Scenario {
     steps.push(Measure(0, Blank, "blank-end", 0.0));
     steps.push(Measure(0, Check, "check-0.40-end", 0.40));
     Scenario {
-        dir: "brook-phosphate-round",
+        dir: "stream-survey",
         meta: meta(
             65_535,
             "mg/L",

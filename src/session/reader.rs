@@ -75,6 +75,7 @@ pub struct SessionReader {
     last_t: u32,
     rows: u64,
     current: Option<Current>,
+    started: bool,
 }
 
 impl Default for SessionReader {
@@ -101,12 +102,19 @@ impl SessionReader {
             last_t: 0,
             rows: 0,
             current: None,
+            started: false,
         }
     }
 
     /// Number of lines fed so far (the number of the last line).
     pub const fn line_number(&self) -> u32 {
         self.line
+    }
+
+    /// Whether the last row returned started a new measurement (its role, id or channel
+    /// differs from the row before; the first row always does).
+    pub const fn row_started_measurement(&self) -> bool {
+        self.started
     }
 
     /// Number of valid data rows read so far.
@@ -344,7 +352,10 @@ impl SessionReader {
                 return match (cur.has_reference, row.reference.is_some()) {
                     (true, false) => Err(ReadErrorKind::ReferenceVanished),
                     (false, true) => Err(ReadErrorKind::ReferenceAppeared),
-                    _ => Ok(()),
+                    _ => {
+                        self.started = false;
+                        Ok(())
+                    }
                 };
             }
         }
@@ -356,20 +367,30 @@ impl SessionReader {
             conc: row.conc,
             has_reference: row.reference.is_some(),
         });
+        self.started = true;
         Ok(())
     }
 }
 
-/// Splits a data row into exactly [`COLUMNS`] fields.
+/// Splits a data row into exactly [`COLUMNS`] fields (one pass over the bytes; commas are
+/// ASCII, so every split point is a character boundary).
 fn split_columns(text: &str) -> Result<[&str; COLUMNS], ReadErrorKind> {
     let mut out = [""; COLUMNS];
     let mut found: usize = 0;
-    for field in text.split(',') {
-        if let Some(slot) = out.get_mut(found) {
-            *slot = field;
+    let mut start = 0;
+    for (i, &b) in text.as_bytes().iter().enumerate() {
+        if b == b',' {
+            if let (Some(slot), Some(field)) = (out.get_mut(found), text.get(start..i)) {
+                *slot = field;
+            }
+            found = found.saturating_add(1);
+            start = i.saturating_add(1);
         }
-        found = found.saturating_add(1);
     }
+    if let (Some(slot), Some(field)) = (out.get_mut(found), text.get(start..)) {
+        *slot = field;
+    }
+    found = found.saturating_add(1);
     if found == COLUMNS {
         Ok(out)
     } else {
@@ -472,7 +493,7 @@ impl<'a> Iterator for Lines<'a> {
 
     fn next(&mut self) -> Option<&'a [u8]> {
         let rest = self.rest?;
-        match rest.iter().position(|&b| b == b'\n') {
+        match find_newline(rest) {
             Some(i) => {
                 let (line, tail) = rest.split_at(i);
                 self.rest = tail.get(1..);
@@ -484,6 +505,30 @@ impl<'a> Iterator for Lines<'a> {
             }
         }
     }
+}
+
+/// Index of the first `\n`, eight bytes at a time (the classic "has zero byte" bit trick on
+/// `word ^ 0x0a0a...`: Hacker's Delight, 2nd ed., section 6-1).
+fn find_newline(bytes: &[u8]) -> Option<usize> {
+    const ONES: u64 = 0x0101_0101_0101_0101;
+    const HIGHS: u64 = 0x8080_8080_8080_8080;
+    const NL: u64 = ONES * b'\n' as u64;
+    let mut chunks = bytes.chunks_exact(8);
+    let mut offset = 0usize;
+    for chunk in chunks.by_ref() {
+        let mut word = [0u8; 8];
+        word.copy_from_slice(chunk);
+        let x = u64::from_le_bytes(word) ^ NL;
+        if x.wrapping_sub(ONES) & !x & HIGHS != 0 {
+            return chunk.iter().position(|&b| b == b'\n').map(|i| offset + i);
+        }
+        offset += 8;
+    }
+    chunks
+        .remainder()
+        .iter()
+        .position(|&b| b == b'\n')
+        .map(|i| offset + i)
 }
 
 #[cfg(test)]
@@ -510,6 +555,17 @@ mod tests {
         assert_eq!(parse_decimal("NaN"), None);
         assert_eq!(parse_decimal("1e999"), None);
         assert_eq!(parse_decimal("1..2"), None);
+    }
+
+    #[test]
+    fn newline_search_agrees_with_a_plain_scan() {
+        let text = b"0123456789abcdef\nxyz\n\n0123456\n";
+        for start in 0..text.len() {
+            for end in start..=text.len() {
+                let s = &text[start..end];
+                assert_eq!(find_newline(s), s.iter().position(|&b| b == b'\n'));
+            }
+        }
     }
 
     #[test]

@@ -351,6 +351,20 @@ impl<const C: usize, const S: usize, const M: usize, const N: usize> Replay<C, S
 
     /// Feeds one row read from line `line` of the file.
     pub fn push_row(&mut self, row: &Row<'_>, line: u32) -> Result<(), ReplayError> {
+        let same = self.open.as_ref().is_some_and(|o| {
+            o.role == row.role
+                && o.id.as_str() == row.id
+                && self
+                    .channels
+                    .get(o.channel)
+                    .is_some_and(|c| c.name.as_str() == row.channel)
+        });
+        self.push_grouped(row, line, !same)
+    }
+
+    /// Feeds a row whose grouping the caller already knows (a [`SessionReader`] tells it:
+    /// [`SessionReader::row_started_measurement`]); saves comparing the key twice.
+    fn push_grouped(&mut self, row: &Row<'_>, line: u32, starts: bool) -> Result<(), ReplayError> {
         if self.finished {
             return Err(ReplayError {
                 line,
@@ -363,15 +377,7 @@ impl<const C: usize, const S: usize, const M: usize, const N: usize> Replay<C, S
                 kind: ReplayErrorKind::NotStarted,
             });
         };
-        let same = self.open.as_ref().is_some_and(|o| {
-            o.role == row.role
-                && o.id.as_str() == row.id
-                && self
-                    .channels
-                    .get(o.channel)
-                    .is_some_and(|c| c.name.as_str() == row.channel)
-        });
-        if !same {
+        if starts || self.open.is_none() {
             self.close()?;
             let channel = self.channel_index(row, line)?;
             let mut id = String::new();
@@ -584,7 +590,13 @@ pub fn replay_bytes<const C: usize, const S: usize, const M: usize, const N: usi
                     replay.start(meta)?;
                 }
             }
-            Event::Row(row) => replay.push_row(&row, reader.line_number())?,
+            Event::Row(row) => {
+                replay.push_grouped(
+                    &row,
+                    reader.line_number(),
+                    reader.row_started_measurement(),
+                )?;
+            }
             Event::Empty | Event::Metadata(_) | Event::Comment(_) => {}
         }
     }

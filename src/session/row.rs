@@ -23,9 +23,9 @@ impl Led {
 
     /// Parses the word.
     pub fn from_name(name: &str) -> Option<Led> {
-        match name {
-            "on" => Some(Led::On),
-            "off" => Some(Led::Off),
+        match name.as_bytes() {
+            [b'o', b'n'] => Some(Led::On),
+            [b'o', b'f', b'f'] => Some(Led::Off),
             _ => None,
         }
     }
@@ -58,13 +58,15 @@ impl Role {
 
     /// Parses the word.
     pub fn from_name(name: &str) -> Option<Role> {
-        match name {
-            "blank" => Some(Role::Blank),
-            "standard" => Some(Role::Standard),
-            "sample" => Some(Role::Sample),
-            "check" => Some(Role::Check),
-            _ => None,
-        }
+        // Dispatch on the length first: one short comparison per row on the hot path.
+        let (role, word) = match name.len() {
+            5 if name.as_bytes().first() == Some(&b'b') => (Role::Blank, "blank"),
+            5 => (Role::Check, "check"),
+            6 => (Role::Sample, "sample"),
+            8 => (Role::Standard, "standard"),
+            _ => return None,
+        };
+        (name == word).then_some(role)
     }
 
     /// Whether rows of this role carry a known concentration (`standard`, `check`).

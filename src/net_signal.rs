@@ -9,7 +9,11 @@
 //! * level = lit location - dark location, for each detector;
 //! * location: the robust Huber estimate of [`crate::robust`] while at most `N` reads of that
 //!   kind were taken, the plain mean beyond (the buffer keeps the first `N` only);
-//! * standard error u(net) = sqrt(u(lit)² + u(dark)²), each the standard error of its location;
+//! * standard error u(net) = sqrt(u(lit)² + u(dark)²), each the standard error of its location,
+//!   floored at the converter's resolution: a stream of n reads never reports less than
+//!   sqrt(q²/12 / n) with q = 1 count (the rectangular distribution of a digital indication's
+//!   resolution, JCGM 100:2008 "GUM", F.2.2.1), so a quiet converter whose reads are all equal
+//!   does not claim zero uncertainty;
 //! * flags: [`Flag::Saturated`] when a lit read reached full scale, [`Flag::NoDark`] when no
 //!   dark read was taken (the dark level is then taken as zero, with zero uncertainty),
 //!   [`Flag::Unstable`] when the reads drifted beyond what their noise explains (below).
@@ -20,10 +24,14 @@
 //! streams of the same time span compare whatever their read counts), with standard error
 //! u(Δ) from the slopes' standard errors. With a reference detector, the *relative* change of the
 //! signal/reference ratio is tested instead, so LED drift that the reference follows is not
-//! called instability. `Unstable` is raised when |Δ| / u(Δ) exceeds
-//! [`SeriesConfig::drift_t_limit`] (default 4: a false alarm about once in 16 000 stable
-//! measurements for Gaussian noise), or when the robust estimate had to reject more than
-//! [`SeriesConfig::max_rejected_fraction`] of the lit reads (scatter beyond noise).
+//! called instability. The statistic t = |Δ| / u(Δ) rests on estimated slope errors, so it is
+//! compared with Student's t distribution (ν = n - 2 for the shortest stream, conservative):
+//! `Unstable` is raised when the two-sided tail probability falls below
+//! [`SeriesConfig::drift_false_alarm`] (default 1e-4: about one false alarm in 10 000 stable
+//! measurements, whatever the number of reads). It is also raised when the robust estimate had
+//! to reject more than [`SeriesConfig::max_rejected_fraction`] of at least
+//! [`MIN_READS_FOR_SCATTER_CHECK`] lit reads (scatter beyond noise; with fewer reads the robust
+//! scale is itself too uncertain to judge).
 
 use core::fmt;
 
@@ -32,6 +40,13 @@ use crate::counts::FullScale;
 use crate::flags::{Flag, Flags};
 use crate::math;
 use crate::robust::RobustBuffer;
+use crate::student_t;
+
+/// Fewest lit reads for the rejected-reads scatter check.
+pub const MIN_READS_FOR_SCATTER_CHECK: u32 = 10;
+
+/// Variance of the rounding of one read, q²/12 with q = 1 count (JCGM 100:2008, F.2.2.1).
+const QUANTISATION_VARIANCE: f32 = 1.0 / 12.0;
 
 /// Error feeding or finishing a [`DarkLitSeries`].
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -89,8 +104,9 @@ impl std::error::Error for NetSignalError {}
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct SeriesConfig {
-    /// Drift t statistic above which the measurement is flagged unstable (> 0; default 4).
-    pub drift_t_limit: f32,
+    /// Two-sided probability of the drift test below which the measurement is flagged
+    /// unstable: the false-alarm rate on stable reads (0 < p < 1; default 1e-4).
+    pub drift_false_alarm: f32,
     /// Fraction of lit reads the robust estimate may reject before the measurement is flagged
     /// unstable (0 ..= 1; default 0.2).
     pub max_rejected_fraction: f32,
@@ -99,7 +115,7 @@ pub struct SeriesConfig {
 impl Default for SeriesConfig {
     fn default() -> Self {
         SeriesConfig {
-            drift_t_limit: 4.0,
+            drift_false_alarm: 1e-4,
             max_rejected_fraction: 0.2,
         }
     }
@@ -108,8 +124,8 @@ impl Default for SeriesConfig {
 impl SeriesConfig {
     /// Checks the settings are finite and in range.
     pub fn validate(&self) -> Result<(), NetSignalError> {
-        let ok = self.drift_t_limit.is_finite()
-            && self.drift_t_limit > 0.0
+        let ok = self.drift_false_alarm > 0.0
+            && self.drift_false_alarm < 1.0
             && (0.0..=1.0).contains(&self.max_rejected_fraction);
         if ok {
             Ok(())
@@ -316,6 +332,10 @@ impl<const N: usize> DarkLitSeries<N> {
         // Drift of the net level across the measurement.
         let net_change = change(&self.lit) - change(&self.dark);
         let net_change_se = hypot(change_se(&self.lit), change_se(&self.dark));
+        let mut shortest = shortest_trend(self.lit.count(), self.dark.count());
+        if let Some((rd, rl)) = &self.reference {
+            shortest = shortest.min(shortest_trend(rl.count(), rd.count()));
+        }
         let drift_t = match (&self.reference, reference) {
             (Some((rd, rl)), Some(r)) if signal.net > 0.0 && r.net > 0.0 => {
                 let ref_change = change(rl) - change(rd);
@@ -326,11 +346,15 @@ impl<const N: usize> DarkLitSeries<N> {
             }
             _ => ratio(net_change, net_change_se),
         };
-        flags.set_if(Flag::Unstable, drift_t > config.drift_t_limit);
+        flags.set_if(
+            Flag::Unstable,
+            drifted(drift_t, shortest, config.drift_false_alarm),
+        );
         let rejected_fraction = lit.rejected as f32 / self.lit.count().max(1) as f32;
         flags.set_if(
             Flag::Unstable,
-            rejected_fraction > config.max_rejected_fraction,
+            self.lit.count() >= MIN_READS_FOR_SCATTER_CHECK
+                && rejected_fraction > config.max_rejected_fraction,
         );
 
         Ok(NetSignal {
@@ -341,6 +365,31 @@ impl<const N: usize> DarkLitSeries<N> {
             dark_reads: self.dark.count(),
             rejected_reads: lit.rejected,
         })
+    }
+}
+
+/// Reads of the shortest stream that carries a trend (at least 3 reads), for the degrees of
+/// freedom of the drift test; a stream too short for a trend does not count.
+fn shortest_trend(lit: u32, dark: u32) -> u32 {
+    if dark >= 3 {
+        lit.min(dark)
+    } else {
+        lit
+    }
+}
+
+/// Whether a drift statistic `t` from streams of `reads` reads is beyond noise at the
+/// two-sided false-alarm probability `alpha`.
+fn drifted(t: f32, reads: u32, alpha: f32) -> bool {
+    if reads < 3 {
+        return false;
+    }
+    if !t.is_finite() {
+        return t > 0.0;
+    }
+    match student_t::upper_tail(reads - 2, f64::from(t)) {
+        Ok(p) => 2.0 * p < f64::from(alpha),
+        Err(_) => false,
     }
 }
 
@@ -377,16 +426,21 @@ fn locate<const N: usize>(acc: &ReadAccumulator, buffer: &RobustBuffer<N>) -> Op
         if let Some(h) = b.huber() {
             return Some(Located {
                 value: h.location,
-                std_error: h.std_error,
+                std_error: resolution_floor(h.std_error, stats.count),
                 rejected: h.rejected,
             });
         }
     }
     Some(Located {
         value: stats.mean,
-        std_error: stats.std_error(),
+        std_error: resolution_floor(stats.std_error(), stats.count),
         rejected: 0,
     })
+}
+
+/// The standard error of a location from `n` reads, at least sqrt(q²/12 / n).
+fn resolution_floor(std_error: f32, n: u32) -> f32 {
+    std_error.max(math::sqrtf(QUANTISATION_VARIANCE / n.max(1) as f32))
 }
 
 #[cfg(test)]
@@ -472,11 +526,69 @@ mod tests {
     }
 
     #[test]
+    fn equal_reads_still_carry_their_resolution() {
+        let mut s = DarkLitSeries::<8>::new(fs(4095), None);
+        for _ in 0..4 {
+            s.push_dark(100, None).unwrap();
+            s.push_lit(3100, None).unwrap();
+        }
+        let n = s.finish(&SeriesConfig::default()).unwrap();
+        // JCGM 100:2008 F.2.2.1: u = q/sqrt(12) per read, here over 4 reads each of lit and dark.
+        let expected = (2.0f32 / 12.0 / 4.0).sqrt();
+        assert!(
+            (n.signal.std_error - expected).abs() < 1e-6,
+            "{}",
+            n.signal.std_error
+        );
+    }
+
+    #[test]
+    fn false_alarm_rate_of_the_drift_test_on_stable_reads() {
+        // Simulated stable Gaussian reads (invented levels): the drift test should flag at most
+        // about drift_false_alarm of them whatever the read count (Student t, not a fixed limit).
+        let mut state = 0x9e37_79b9_7f4a_7c15u64;
+        let mut normal = move || {
+            let mut u = || {
+                state ^= state >> 12;
+                state ^= state << 25;
+                state ^= state >> 27;
+                ((state.wrapping_mul(0x2545_F491_4F6C_DD1D) >> 11) as f64 + 0.5)
+                    / (1u64 << 53) as f64
+            };
+            let (a, b) = (u(), u());
+            libm::sqrt(-2.0 * libm::log(a)) * libm::cos(2.0 * core::f64::consts::PI * b)
+        };
+        let cfg = SeriesConfig {
+            drift_false_alarm: 0.01,
+            ..SeriesConfig::default()
+        };
+        for pairs in [5u32, 15, 40] {
+            let trials = 4000;
+            let mut flagged = 0;
+            for _ in 0..trials {
+                let mut s = DarkLitSeries::<0>::new(fs(65535), None);
+                for _ in 0..pairs {
+                    s.push_dark((1000.0 + 5.0 * normal()) as u32, None).unwrap();
+                    s.push_lit((30_000.0 + 20.0 * normal()) as u32, None)
+                        .unwrap();
+                }
+                if s.finish(&cfg).unwrap().flags.contains(Flag::Unstable) {
+                    flagged += 1;
+                }
+            }
+            let rate = flagged as f64 / trials as f64;
+            // Conservative degrees of freedom: at most the nominal rate, plus sampling error.
+            let limit = 0.01 + 3.0 * libm::sqrt(0.01 * 0.99 / trials as f64);
+            assert!(rate < limit, "{pairs} pairs: {rate}");
+        }
+    }
+
+    #[test]
     fn invalid_config_is_refused() {
         let mut s = DarkLitSeries::<0>::new(fs(10), None);
         s.push_lit(5, None).unwrap();
         let bad = SeriesConfig {
-            drift_t_limit: f32::NAN,
+            drift_false_alarm: f32::NAN,
             ..SeriesConfig::default()
         };
         assert_eq!(s.finish(&bad), Err(NetSignalError::InvalidConfig));

@@ -355,3 +355,33 @@ fn recovery_of_check_sample() {
     let spike = lumisorb::quantification::spike_recovery_percent(3.4, 1.5, 2.0).unwrap();
     assert!((spike - 95.0).abs() < 1e-4);
 }
+
+#[test]
+fn studentized_residuals_match_refits_without_each_standard() {
+    // Independent path (common practice, regression diagnostics): the externally studentized
+    // residual t_i = e_i / (s_(i) sqrt(1 - h_i)), with s_(i) from a refit without standard i,
+    // equals r_i sqrt((ν-1)/(ν-r_i²)) computed from the internal studentized residual r_i.
+    let pts: Vec<(f32, f32)> = [0.0f32, 1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0]
+        .iter()
+        .zip([0.003f32, 0.098, 0.205, 0.297, 0.41, 0.493, 0.61, 0.695])
+        .map(|(c, y)| (*c, y))
+        .collect();
+    let cal = Calibration::fit(&set_of(&pts), Model::Linear, Weighting::None).unwrap();
+    let nu = f64::from(cal.statistics().degrees_of_freedom);
+    for r in cal.residuals() {
+        let (x, y): (Vec<f64>, Vec<f64>) = pts
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| *j != r.index)
+            .map(|(_, p)| (f64::from(p.0), f64::from(p.1)))
+            .unzip();
+        let refit = Fit::from_slices(&x, &y, None, Model::Linear).unwrap();
+        let t_deleted = r.residual / (refit.residual_sd() * (1.0 - r.leverage).sqrt());
+        let t_formula = r.studentized * ((nu - 1.0) / (nu - r.studentized.powi(2))).sqrt();
+        assert!(
+            (t_deleted - t_formula).abs() < 1e-9,
+            "{}: {t_deleted} vs {t_formula}",
+            r.index
+        );
+    }
+}

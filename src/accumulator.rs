@@ -54,8 +54,7 @@ impl fmt::Display for AccumulateError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for AccumulateError {}
+impl core::error::Error for AccumulateError {}
 
 /// Summary statistics of the accumulated reads (counts).
 #[derive(Clone, Copy, Debug, PartialEq)]

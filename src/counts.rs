@@ -29,8 +29,7 @@ impl fmt::Display for CountError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for CountError {}
+impl core::error::Error for CountError {}
 
 /// The largest count a detector reports (for example 4095 for a 12-bit ADC).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]

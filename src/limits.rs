@@ -52,8 +52,7 @@ impl fmt::Display for LimitError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for LimitError {}
+impl core::error::Error for LimitError {}
 
 /// LOD and LOQ of a calibration, in concentration units.
 #[derive(Clone, Copy, Debug, PartialEq)]

@@ -97,8 +97,7 @@ impl fmt::Display for NetSignalError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for NetSignalError {}
+impl core::error::Error for NetSignalError {}
 
 /// Settings of the stability checks in [`DarkLitSeries::finish`].
 #[derive(Clone, Copy, Debug, PartialEq)]

@@ -74,8 +74,7 @@ impl fmt::Display for QuantityError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for QuantityError {}
+impl core::error::Error for QuantityError {}
 
 /// Transmittance T = P / P0, the fraction of the blank's light that passes the sample.
 ///
@@ -266,8 +265,7 @@ impl fmt::Display for PhotometryError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for PhotometryError {}
+impl core::error::Error for PhotometryError {}
 
 /// Transmittance and absorbance of a sample against its blank, with uncertainty and flags.
 #[derive(Clone, Copy, Debug, PartialEq)]

@@ -87,8 +87,7 @@ impl fmt::Display for QuantifyError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for QuantifyError {}
+impl core::error::Error for QuantifyError {}
 
 /// A concentration with its 95 % confidence interval and flags.
 #[derive(Clone, Copy, Debug, PartialEq)]

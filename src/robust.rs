@@ -63,8 +63,7 @@ impl fmt::Display for BufferFull {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for BufferFull {}
+impl core::error::Error for BufferFull {}
 
 /// Fixed buffer of up to `N` reads for the robust estimate.
 #[derive(Clone, Debug, PartialEq, Eq)]

@@ -42,8 +42,7 @@ impl fmt::Display for StudentTError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for StudentTError {}
+impl core::error::Error for StudentTError {}
 
 /// t(ν, 0.975): the factor of a two-sided 95 % confidence interval with ν degrees of freedom.
 ///

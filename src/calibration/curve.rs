@@ -104,8 +104,7 @@ impl fmt::Display for CalibrationError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for CalibrationError {}
+impl core::error::Error for CalibrationError {}
 
 impl From<FitError> for CalibrationError {
     fn from(e: FitError) -> Self {

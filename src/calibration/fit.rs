@@ -69,8 +69,7 @@ impl fmt::Display for FitError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for FitError {}
+impl core::error::Error for FitError {}
 
 /// Anything that can hand out fit points by index (keeps the fitting code non-generic).
 pub(crate) trait PointSource {

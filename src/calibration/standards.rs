@@ -53,8 +53,7 @@ impl fmt::Display for StandardError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for StandardError {}
+impl core::error::Error for StandardError {}
 
 impl Standard {
     /// A standard read once (no standard deviation known).
@@ -122,8 +121,7 @@ impl fmt::Display for SetError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for SetError {}
+impl core::error::Error for SetError {}
 
 /// Up to `N` calibration standards (default 16) in fixed storage, in the order they were added.
 ///

@@ -128,14 +128,11 @@ impl fmt::Display for SequenceError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for SequenceError {}
+impl core::error::Error for SequenceError {}
 
-#[cfg(feature = "std")]
-impl std::error::Error for ExposureError {}
+impl core::error::Error for ExposureError {}
 
-#[cfg(feature = "std")]
-impl std::error::Error for ConfigError {}
+impl core::error::Error for ConfigError {}
 
 impl From<NetSignalError> for SequenceError {
     fn from(e: NetSignalError) -> Self {

@@ -57,8 +57,7 @@ impl core::fmt::Display for MockFlashError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for MockFlashError {}
+impl core::error::Error for MockFlashError {}
 
 impl NorFlashError for MockFlashError {
     fn kind(&self) -> NorFlashErrorKind {

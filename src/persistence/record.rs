@@ -144,8 +144,7 @@ impl core::fmt::Display for DecodeError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for DecodeError {}
+impl core::error::Error for DecodeError {}
 
 /// Why a value cannot be encoded.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -178,8 +177,7 @@ impl core::fmt::Display for EncodeError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for EncodeError {}
+impl core::error::Error for EncodeError {}
 
 /// A type stored as a framed record (crate-internal: the public API is each type's
 /// `encode`/`decode`).

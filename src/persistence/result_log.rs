@@ -61,8 +61,7 @@ impl fmt::Display for SampleIdError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for SampleIdError {}
+impl core::error::Error for SampleIdError {}
 
 impl SampleId {
     /// Longest id, in bytes.
@@ -225,8 +224,7 @@ impl fmt::Display for ExportError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for ExportError {}
+impl core::error::Error for ExportError {}
 
 /// Visits every decodable entry of `log`, oldest first; returns how many did and did not decode.
 pub fn for_each_entry<R: RecordRing>(

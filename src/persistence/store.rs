@@ -103,8 +103,7 @@ impl core::fmt::Display for StoreError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for StoreError {}
+impl core::error::Error for StoreError {}
 
 impl<E: NorFlashError> From<sequential_storage::Error<E>> for StoreError {
     fn from(e: sequential_storage::Error<E>) -> Self {
@@ -137,8 +136,7 @@ impl core::fmt::Display for LoadError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for LoadError {}
+impl core::error::Error for LoadError {}
 
 impl From<StoreError> for LoadError {
     fn from(e: StoreError) -> Self {
@@ -223,8 +221,7 @@ impl core::fmt::Display for LayoutError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for LayoutError {}
+impl core::error::Error for LayoutError {}
 
 /// Bytes of the map key in flash.
 pub const KEY_LEN: usize = 2;

@@ -263,5 +263,4 @@ impl fmt::Display for ReadError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for ReadError {}
+impl core::error::Error for ReadError {}

@@ -137,8 +137,7 @@ impl fmt::Display for ReplayError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for ReplayError {}
+impl core::error::Error for ReplayError {}
 
 /// A malformed line or a replay failure.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -169,8 +168,7 @@ impl fmt::Display for SessionError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for SessionError {}
+impl core::error::Error for SessionError {}
 
 impl From<ReadError> for SessionError {
     fn from(e: ReadError) -> Self {

@@ -55,8 +55,7 @@ impl fmt::Display for WriteError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for WriteError {}
+impl core::error::Error for WriteError {}
 
 impl From<fmt::Error> for WriteError {
     fn from(_: fmt::Error) -> Self {

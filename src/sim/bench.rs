@@ -136,8 +136,7 @@ impl fmt::Display for SimConfigError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for SimConfigError {}
+impl core::error::Error for SimConfigError {}
 
 /// One simulated read: the measuring detector and, if configured, the reference detector.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]

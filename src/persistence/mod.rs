@@ -10,6 +10,7 @@ mod method_record;
 mod mock_flash;
 pub mod record;
 mod result_log;
+mod session_export;
 mod staleness;
 mod store;
 
@@ -23,6 +24,9 @@ pub use record::{DecodeError, EncodeError, RecordKind};
 pub use result_log::{
     export_csv, for_each_entry, write_csv_header, write_csv_row, ConcentrationInterval,
     ExportError, ExportSummary, ResultEntry, SampleId, SampleIdError, CSV_HEADER,
+};
+pub use session_export::{
+    export_session, write_result_comment, SessionExportError, RESULT_COMMENT, RESULT_FLAGS_COMMENT,
 };
 pub use staleness::Staleness;
 pub use store::{

@@ -70,3 +70,73 @@ impl Staleness {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::calibration::{Calibration, CalibrationSet, Model, Standard, Weighting};
+    use crate::persistence::MethodId;
+    use crate::Absorbance;
+
+    fn calibration(created_s: u32, path_length_mm: f32, version: u16) -> CalibrationRecord {
+        let mut set = CalibrationSet::new();
+        for (c, a) in [(0.0f32, 0.01f32), (1.0, 0.21), (2.0, 0.40), (4.0, 0.81)] {
+            set.push(Standard::new(c, Absorbance::new(a).unwrap()).unwrap())
+                .unwrap();
+        }
+        CalibrationRecord {
+            channel: 0,
+            method: MethodId { id: 9, version },
+            path_length_mm,
+            created_s,
+            sequence: 1,
+            calibration: Calibration::fit(&set, Model::Linear, Weighting::None).unwrap(),
+        }
+    }
+
+    fn settings(max_age_s: u32) -> MethodSettings {
+        MethodSettings {
+            channel: 0,
+            method: MethodId { id: 9, version: 2 },
+            wavelength_nm: 630,
+            path_length_mm: 10.0,
+            lit_reads: 8,
+            dark_reads: 8,
+            stray_fraction: 0.0,
+            use_reference: false,
+            dilution_factor: 1.0,
+            max_calibration_age_s: max_age_s,
+        }
+    }
+
+    #[test]
+    fn fresh_calibration_has_no_flag() {
+        let s = Staleness::of(&calibration(1_000, 10.0, 2), &settings(3_600), 4_600);
+        assert_eq!(s, Staleness::default());
+        assert_eq!(s.flags(), Flags::NONE);
+    }
+
+    #[test]
+    fn each_rule_alone_makes_it_stale() {
+        let day = settings(3_600);
+        let cases = [
+            (calibration(1_000, 10.0, 2), 4_601, "too old"),
+            (calibration(5_000, 10.0, 2), 4_999, "clock behind"),
+            (calibration(1_000, 10.02, 2), 1_000, "other path length"),
+            (calibration(1_000, 10.0, 1), 1_000, "other method version"),
+        ];
+        for (cal, now, why) in cases {
+            let s = Staleness::of(&cal, &day, now);
+            assert!(s.is_stale(), "{why}");
+            assert_eq!(s.flags(), Flags::only(Flag::StaleCalibration), "{why}");
+        }
+        // Within 0.1 % the path length counts as the same.
+        assert!(!Staleness::of(&calibration(1_000, 10.005, 2), &day, 1_000).is_stale());
+        // No age limit: never too old.
+        assert!(!Staleness::of(&calibration(0, 10.0, 2), &settings(0), u32::MAX).is_stale());
+        // Settings built by hand with a NaN path: stale, never silently fresh.
+        let mut nan = day;
+        nan.path_length_mm = f32::NAN;
+        assert!(Staleness::of(&calibration(1_000, 10.0, 2), &nan, 1_000).other_path_length);
+    }
+}

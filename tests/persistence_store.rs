@@ -198,3 +198,61 @@ fn map_full_is_a_typed_error() {
         Ok(Some(settings(0, 1)))
     );
 }
+
+/// The capacity table of the persistence module docs, computed and checked by experiment.
+#[test]
+fn capacity_table_of_the_docs() {
+    use lumisorb::calibration::{Calibration, CalibrationSet, Model, Standard, Weighting};
+    use lumisorb::persistence::{CalibrationRecord, FRAME_OVERHEAD};
+    let cal6 = FRAME_OVERHEAD + 69 + 14 * 6;
+    let cal16 = CalibrationRecord::MAX_ENCODED_LEN;
+    let set = KEY_LEN + MethodSettings::ENCODED_LEN;
+    let (rmin, rmax) = (ResultEntry::MIN_ENCODED_LEN, ResultEntry::MAX_ENCODED_LEN);
+    assert_eq!(
+        (cal6, cal16, set - KEY_LEN, rmin, rmax),
+        (163, 309, 38, 32, 59)
+    );
+    fn row<F: embedded_storage_async::nor_flash::NorFlash>(sizes: [usize; 5]) -> [usize; 5] {
+        sizes.map(FlashStore::<F>::items_per_page)
+    }
+    let sizes = [KEY_LEN + cal6, KEY_LEN + cal16, set, rmin, rmax];
+    assert_eq!(row::<MockFlash<2048, 1024, 4>>(sizes), [5, 3, 21, 25, 14]);
+    assert_eq!(row::<MockFlash<4096, 2048, 8>>(sizes), [11, 6, 42, 50, 28]);
+    assert_eq!(
+        row::<MockFlash<8192, 4096, 4>>(sizes),
+        [23, 12, 85, 102, 60]
+    );
+
+    // Experiment: a 4-page map of 1 KiB holds (4 - 1) * 3 - 1 = 8 calibrations of 16
+    // standards, rewritten over and over; a 9th channel does not fit (an update needs one free
+    // slot besides the live records).
+    let mut standards = CalibrationSet::new();
+    for i in 0..16u16 {
+        let c = f32::from(i);
+        standards
+            .push(Standard::with_replicates(c, Absorbance::new(0.1 * c).unwrap(), 0.01, 2).unwrap())
+            .unwrap();
+    }
+    let calibration = Calibration::fit(&standards, Model::Linear, Weighting::None).unwrap();
+    let record = |channel: u8, sequence: u32| CalibrationRecord {
+        channel,
+        method: MethodId { id: 1, version: 1 },
+        path_length_mm: 10.0,
+        created_s: sequence,
+        sequence,
+        calibration: calibration.clone(),
+    };
+    let mut store = FlashStore::new(Flash::new(), layout()).unwrap();
+    for round in 0..20 {
+        for channel in 0..8 {
+            record(channel, round).save(&mut store).unwrap();
+        }
+    }
+    let mut result = Ok(());
+    for round in 0..20 {
+        for channel in 0..9 {
+            result = result.and(record(channel, round).save(&mut store));
+        }
+    }
+    assert_eq!(result, Err(StoreError::Full));
+}

@@ -25,7 +25,7 @@ use super::store::{LoadError, RecordKey, RecordMap, StoreError};
 ///
 /// The numbering is the user's or the firmware's own; lumisorb only compares it. A calibration
 /// made under another `version` of the same method is stale (see
-/// [`staleness`](super::staleness)).
+/// [`Staleness`](super::Staleness)).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct MethodId {

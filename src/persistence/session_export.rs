@@ -54,8 +54,7 @@ impl fmt::Display for SessionExportError {
     }
 }
 
-#[cfg(feature = "std")]
-impl std::error::Error for SessionExportError {}
+impl core::error::Error for SessionExportError {}
 
 /// A number that reads back to the same `f32`, in plain decimals for ordinary magnitudes.
 struct Num(f32);

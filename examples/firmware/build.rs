@@ -15,5 +15,8 @@ fn main() {
     println!("cargo:rustc-link-search={}", out.display());
     println!("cargo:rustc-env=LUMISORB_BOARD={board}");
     println!("cargo:rerun-if-changed=memory-{board}.x");
+    if env::var_os("CARGO_FEATURE_DEFMT").is_some() {
+        println!("cargo:rustc-link-arg=-Tdefmt.x");
+    }
     println!("cargo:rerun-if-changed=build.rs");
 }

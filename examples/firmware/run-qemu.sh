@@ -64,29 +64,48 @@ run_board() { # board target cpu
     echo "FAIL: $board results differ from the host library's"
     fail=1
   fi
-  # The pipeline without formatting must pass too (its exit status is its only output).
-  local probe="$target_dir/$target/release/size_probe"
-  status=0
-  timeout 300 qemu-system-arm -cpu "$cpu" -machine "$board" -nographic -monitor none -serial none \
-    -semihosting-config enable=on,target=native -kernel "$probe" >/dev/null || status=$?
-  if [ "$status" -ne 0 ]; then
-    echo "FAIL: $board size probe exited with status $status"
-    fail=1
-  fi
+  # The probes without formatting must pass too (their exit status is their only output).
+  for probe in size_probe size_probe_measure; do
+    status=0
+    timeout 300 qemu-system-arm -cpu "$cpu" -machine "$board" -nographic -monitor none -serial none \
+      -semihosting-config enable=on,target=native -kernel "$target_dir/$target/release/$probe" \
+      >/dev/null || status=$?
+    if [ "$status" -ne 0 ]; then
+      echo "FAIL: $board $probe exited with status $status"
+      fail=1
+    fi
+  done
 }
 run_board mps2-an386 thumbv7em-none-eabihf cortex-m4
 run_board microbit thumbv6m-none-eabi cortex-m0
+
+echo "-- mps2-an386 with the sequencer's defmt event log (feature defmt, DEFMT_LOG=debug)"
+defmt_dir="$target_dir/defmt-variant"
+(cd "$here" && DEFMT_LOG=debug CARGO_TARGET_DIR="$defmt_dir" cargo build -q --release --features defmt \
+  --bin lumisorb-firmware --target thumbv7em-none-eabihf)
+defmt_elf="$defmt_dir/thumbv7em-none-eabihf/release/lumisorb-firmware"
+status=0
+timeout 300 qemu-system-arm -cpu cortex-m4 -machine mps2-an386 -nographic -monitor none -serial none \
+  -semihosting-config enable=on,target=native -kernel "$defmt_elf" >"$work/defmt.bin" || status=$?
+events=$(arm-none-eabi-nm "$defmt_elf" | grep -c '"tag":"defmt_debug"' || true)
+echo "defmt variant: exit status $status, $events sequencer event formats interned, $(wc -c <"$work/defmt.bin") bytes of output (text lines and binary defmt frames)"
+if [ "$status" -ne 0 ] || [ "$events" -eq 0 ]; then
+  echo "FAIL: the defmt variant did not run or logs no sequencer events"
+  fail=1
+fi
 
 section() { # elf name -> size of section (0 when absent)
   arm-none-eabi-size -A "$1" | awk -v s="$2" '$1 == s { print $2; found = 1 } END { if (!found) print 0 }'
 }
 
 echo "-- size report (arm-none-eabi-size; flash = .vector_table + .text + .rodata + .data)"
+echo "(size_probe: the whole pipeline, no printing; size_probe_measure: one measurement only,"
+echo " auto-exposure + blank + sample: sequencer, photometry and simulator without calibration)"
 printf '%-12s %-26s %8s %8s %8s %8s %8s\n' board binary .text .rodata .data .bss flash
 for pair in mps2-an386:thumbv7em-none-eabihf microbit:thumbv6m-none-eabi; do
   board=${pair%%:*}
   target=${pair#*:}
-  for bin in lumisorb-firmware size_probe; do
+  for bin in lumisorb-firmware size_probe size_probe_measure; do
     elf="$target_dir/$target/release/$bin"
     vt=$(section "$elf" .vector_table)
     text=$(section "$elf" .text)
@@ -95,10 +114,13 @@ for pair in mps2-an386:thumbv7em-none-eabihf microbit:thumbv6m-none-eabi; do
     bss=$(( $(section "$elf" .bss) + $(section "$elf" .uninit) ))
     flash=$((vt + text + ro + data))
     label=$bin
-    [ "$bin" = size_probe ] && label="size_probe (no printing)"
+    [ "$bin" = size_probe ] && label="size_probe (pipeline)"
+    [ "$bin" = size_probe_measure ] && label="size_probe_measure"
     printf '%-12s %-26s %8d %8d %8d %8d %8d\n' "$board" "$label" "$text" "$ro" "$data" "$bss" "$flash"
     if [ "$board" = mps2-an386 ]; then
       if [ "$bin" = size_probe ]; then probe_flash=$flash; fi
+      if [ "$bin" = size_probe_measure ]; then measure_flash=$flash; fi
+      if [ "$bin" = lumisorb-firmware ]; then firmware_flash=$flash; fi
       ram=$((data + bss))
       if [ "$ram" -gt "$STATIC_RAM_BUDGET" ]; then
         echo "FAIL: $bin static RAM $ram bytes > budget $STATIC_RAM_BUDGET"
@@ -110,6 +132,14 @@ done
 floats=$(arm-none-eabi-nm -C "$target_dir/thumbv7em-none-eabihf/release/lumisorb-firmware" |
   grep -c 'float_to_decimal\|float_to_exponential\|flt2dec' || true)
 echo "float formatting symbols linked in the firmware: $floats (numbers are printed as scaled integers)"
+for probe in size_probe size_probe_measure; do
+  fmt_syms=$(arm-none-eabi-nm -C "$target_dir/thumbv7em-none-eabihf/release/$probe" | grep -c 'core::fmt' || true)
+  echo "formatting symbols (core::fmt) linked in $probe: $fmt_syms"
+  if [ "$fmt_syms" -ne 0 ]; then
+    echo "FAIL: the pipeline without printing links formatting code"
+    fail=1
+  fi
+done
 
 echo "-- where the pipeline's flash goes (size_probe, mps2-an386; nm symbol sizes, inlined code counts where it lands)"
 arm-none-eabi-nm -C -S --size-sort "$target_dir/thumbv7em-none-eabihf/release/size_probe" |
@@ -130,11 +160,16 @@ arm-none-eabi-nm -C -S --size-sort "$target_dir/thumbv7em-none-eabihf/release/si
   }
   END { for (g in sum) printf "%8d  %s\n", sum[g], g }' | sort -rn
 
-if [ "${probe_flash:-0}" -gt "$FLASH_BUDGET" ]; then
-  echo "OVER BUDGET: pipeline flash ${probe_flash} bytes > $FLASH_BUDGET on thumbv7em-none-eabihf (reported, not failed; see the breakdown above)"
-else
-  echo "pipeline flash ${probe_flash} bytes <= budget $FLASH_BUDGET on thumbv7em-none-eabihf"
-fi
+defmt_flash=$(( $(section "$defmt_elf" .vector_table) + $(section "$defmt_elf" .text) + $(section "$defmt_elf" .rodata) + $(section "$defmt_elf" .data) ))
+echo "firmware with defmt logging: $defmt_flash bytes flash (without: ${firmware_flash:-?})"
+for pair in "size_probe:${probe_flash:-0}:whole pipeline" "size_probe_measure:${measure_flash:-0}:one measurement (sequencer, photometry, simulator)"; do
+  name=${pair%%:*}; rest=${pair#*:}; bytes=${rest%%:*}; what=${rest#*:}
+  if [ "$bytes" -gt "$FLASH_BUDGET" ]; then
+    echo "OVER BUDGET: $what ($name) $bytes bytes flash > $FLASH_BUDGET on thumbv7em-none-eabihf (reported, not failed; see the breakdown above)"
+  else
+    echo "within budget: $what ($name) $bytes bytes flash <= $FLASH_BUDGET on thumbv7em-none-eabihf"
+  fi
+done
 
 echo "-- stack (painted high-water mark)"
 for board in mps2-an386 microbit; do

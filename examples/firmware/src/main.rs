@@ -8,9 +8,15 @@
 
 mod pipeline;
 
+// With the `defmt` feature the sequencer's events go out as defmt frames over semihosting.
+#[cfg(feature = "defmt")]
+use defmt_semihosting as _;
+
 use core::fmt::{self, Write};
 use core::panic::PanicInfo;
 
+// Links cortex-m's single-core critical-section implementation (semihosting output uses it).
+use cortex_m as _;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hio};
 

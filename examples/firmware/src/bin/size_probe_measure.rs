@@ -1,0 +1,34 @@
+//! One measurement without any printing, for the size report: auto-exposure, blank and one
+//! sample on the simulated photometer (sequencer, photometry, simulator; no calibration). The
+//! exit status says whether the absorbance is plausible.
+#![no_std]
+#![no_main]
+
+#[path = "../pipeline.rs"]
+#[allow(dead_code)]
+mod pipeline;
+
+use core::panic::PanicInfo;
+
+use cortex_m_rt::entry;
+use cortex_m_semihosting::debug;
+
+#[entry]
+fn main() -> ! {
+    // The demo dye at 2 units reads about A = 0.45 (see the firmware's report).
+    let ok = matches!(pipeline::single_measurement(), Ok(a) if a > 0.40 && a < 0.50);
+    debug::exit(if ok {
+        debug::EXIT_SUCCESS
+    } else {
+        debug::EXIT_FAILURE
+    });
+    #[allow(clippy::empty_loop)]
+    loop {}
+}
+
+#[panic_handler]
+fn panic(_: &PanicInfo) -> ! {
+    debug::exit(debug::EXIT_FAILURE);
+    #[allow(clippy::empty_loop)]
+    loop {}
+}

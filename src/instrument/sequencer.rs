@@ -363,7 +363,10 @@ macro_rules! define_sequencer {
                 Ok(())
             }
 
-            /// One full measurement at the current exposure.
+            /// One full measurement at the current exposure. Never inlined: the blank and
+            /// sample procedures call it twice (saturation repeat), and one frame holding its
+            /// series at a time keeps the stack of a measurement small.
+            #[inline(never)]
             $($async)? fn measure_once<K: $crate::instrument::Cancel>(
                 &mut self,
                 start_ms: u32,

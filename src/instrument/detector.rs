@@ -46,6 +46,8 @@ impl fmt::Display for DetectorErrorKind {
     }
 }
 
+impl core::error::Error for DetectorErrorKind {}
+
 /// A detector error: any type that can name its kind.
 pub trait DetectorError: fmt::Debug {
     /// The kind of failure.

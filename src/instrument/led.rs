@@ -1,5 +1,5 @@
 //! The LED: on and off through an [`OutputPin`](embedded_hal::digital::OutputPin), and its
-//! drive level through [`SetDutyCycle`](embedded_hal::pwm::SetDutyCycle) where the hardware can
+//! drive level through [`SetDutyCycle`] where the hardware can
 //! dim it (PWM or a current DAC behind that trait).
 //!
 //! Without dimming hardware pass [`FixedDrive`]: a duty-cycle "channel" with a single level,

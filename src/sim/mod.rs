@@ -12,7 +12,7 @@
 //!   brighter and bluer), slow ageing drift.
 //! * [`detector`]: conversion gain, dark current and dark offset with slow drift, shot noise
 //!   (Poisson), read noise (Gaussian), full-scale clipping, ADC rounding.
-//! * [`bench`]: [`SimBench`] puts them together: `read(t_ms, led_on, &sample)` gives one
+//! * [`bench`](mod@bench): [`SimBench`] puts them together: `read(t_ms, led_on, &sample)` gives one
 //!   [`SimRead`] of the measuring detector and, if configured, a reference detector that sees
 //!   the LED before the cuvette.
 //! * [`rig`]: [`SimRig`] puts the bench behind the instrument layer's embedded-hal traits, so

@@ -26,7 +26,7 @@
 //! Stray light (light that reaches the detector without passing the sample's absorbing path)
 //! is a fraction `s = P_s / P_0` of the clear-cuvette power, so the detector sees
 //! `P_0 · (T_true + s)` and a blank at `P_0 · (1 + s)`, giving the textbook apparent absorbance
-//! `A_app = -log10((T + s) / (1 + s))` (e.g. Harvey, *Analytical Chemistry 2.1*, ch. 10 [mem]).
+//! `A_app = -log10((T + s) / (1 + s))` (e.g. Harvey, *Analytical Chemistry 2.1*, ch. 10, from memory).
 
 use crate::math;
 

@@ -129,7 +129,12 @@ fn random_images_never_panic() {
     let mut rng = Rng(0x9E37_79B9_7F4A_7C15);
     let mut tally = Tally::default();
     let healthy = healthy_image();
-    for case in 0..600 {
+    // LUMISORB_RANDOM_IMAGES=N runs more images (600 by default, for CI).
+    let images: usize = std::env::var("LUMISORB_RANDOM_IMAGES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(600);
+    for case in 0..images {
         let mut image = [0xFFu8; SIZE];
         match case % 6 {
             // Uniform noise.
@@ -170,7 +175,7 @@ fn random_images_never_panic() {
         }
         exercise(image, &mut tally);
     }
-    println!("600 images: {tally:?}");
+    println!("{images} images: {tally:?}");
     assert!(tally.loads_ok > 0 && tally.saves_ok > 0);
 }
 

@@ -181,12 +181,13 @@ fn calibration_save_cut_at_every_byte_rewritable_flash_weak_tears() {
 
 #[test]
 fn calibration_save_cut_at_every_byte_ecc_flash_weak_tears() {
-    // The residual case documented in the persistence docs: on write-once flash, a page marker
-    // torn with fewer than 4 programmed bits looks unwritten, the library programs it again and
-    // the flash refuses. Loads stay correct (asserted in the sweep); only later saves may fail.
+    // Write-once flash with torn bytes that get a single programmed bit: a torn page marker
+    // looks unwritten to the library's own 4-bit threshold, and before the store normalised
+    // marker reads the library programmed it a second time, which the flash refused (10 of
+    // 7 782 cut points left a store that refused every later save).
     let sweep = calibration_sweep(Flash::new().with_tear(0xFE, 0x01), L1K, 14);
     println!("ECC flash, weak tears: {sweep:?}");
-    assert!(sweep.stuck < sweep.checked / 50, "{sweep:?}");
+    assert_eq!(sweep.stuck, 0);
 }
 
 fn entry(i: u32) -> ResultEntry {

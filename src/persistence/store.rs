@@ -282,10 +282,45 @@ impl<F: NorFlash> core::fmt::Debug for FlashStore<F> {
 /// leaves its last byte erased: the page looks open, and the library writes the marker word a
 /// second time, which ECC flash (many STM32 families) refuses, so every later save would fail.
 /// The power-loss tests found this. Presenting `READ_SIZE` = the write word makes the library
-/// read the whole marker word, so a partly written marker counts as written (it needs 4 zero
-/// bits, see the module docs). Every read stays a multiple of the driver's own `READ_SIZE`
+/// read the whole marker word, so a partly written marker counts as written when it has at
+/// least 4 programmed bits (the library's threshold; the second measure covers the rest).
+/// Every read stays a multiple of the driver's own `READ_SIZE`
 /// because the library requires write and read sizes to be multiples of each other.
+///
+/// Second, page markers are read as all-or-nothing: the first and the last word of a page are
+/// only ever written by the library as its page-state markers (all zero bytes), so a marker
+/// word with any programmed bit is a marker whose write began, and it is handed to the library
+/// as fully written. Without this, a marker torn with fewer than 4 programmed bits (the
+/// library's threshold, meant to survive a stray bit flip) looked unwritten and was programmed
+/// a second time, which write-once flash refuses. On ECC flash a stray bit flip is corrected
+/// by the hardware; elsewhere a flipped bit in an erased page's marker makes the library see an
+/// inconsistent page and repair it (re-erase), which the random start-up tests exercise.
 struct WholeWords<'f, F>(&'f mut F);
+
+impl<F: NorFlash> WholeWords<'_, F> {
+    /// Sets every page-marker word inside `bytes` (read at `offset`) that has any programmed
+    /// bit to all zeros.
+    fn normalise_markers(offset: u32, bytes: &mut [u8]) {
+        let word = word_of::<F>();
+        let page = F::ERASE_SIZE;
+        if word == 0 || page < 2 * word {
+            return;
+        }
+        let start = offset as usize;
+        // Word-aligned reads only (the library reads in multiples of `READ_SIZE` = word).
+        if !start.is_multiple_of(word) {
+            return;
+        }
+        for (i, chunk) in bytes.chunks_mut(word).enumerate() {
+            let at = start.saturating_add(i.saturating_mul(word));
+            let in_page = at % page;
+            let is_marker = in_page == 0 || in_page == page - word;
+            if is_marker && chunk.len() == word && chunk.iter().any(|b| *b != 0xFF) {
+                chunk.fill(0);
+            }
+        }
+    }
+}
 
 const fn word_of<F: NorFlash>() -> usize {
     if F::WRITE_SIZE > F::READ_SIZE {
@@ -303,7 +338,9 @@ impl<F: NorFlash> embedded_storage_async::nor_flash::ReadNorFlash for WholeWords
     const READ_SIZE: usize = word_of::<F>();
 
     async fn read(&mut self, offset: u32, bytes: &mut [u8]) -> Result<(), Self::Error> {
-        self.0.read(offset, bytes).await
+        self.0.read(offset, bytes).await?;
+        Self::normalise_markers(offset, bytes);
+        Ok(())
     }
 
     fn capacity(&self) -> usize {
@@ -497,5 +534,31 @@ impl<F: NorFlash> RecordRing for FlashStore<F> {
     fn clear_records(&mut self) -> Result<(), StoreError> {
         block_on(self.flash.erase(self.log.start, self.log.end))
             .map_err(|e| StoreError::Flash(e.kind()))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::persistence::MockFlash;
+
+    #[test]
+    fn torn_page_markers_read_as_written() {
+        type F = MockFlash<256, 64, 4>;
+        let mut buf = [0xFF, 0xFE, 0xFF, 0xFF, 0x12, 0x34, 0x56, 0x78];
+        // A read at a page start: its marker word has one programmed bit; the next word is data.
+        WholeWords::<F>::normalise_markers(64, &mut buf);
+        assert_eq!(buf, [0, 0, 0, 0, 0x12, 0x34, 0x56, 0x78]);
+        // The last word of a page, torn; an erased marker stays erased.
+        let mut end = [0xFF, 0xFF, 0xFF, 0x7F];
+        WholeWords::<F>::normalise_markers(60, &mut end);
+        assert_eq!(end, [0; 4]);
+        let mut erased = [0xFF; 4];
+        WholeWords::<F>::normalise_markers(124, &mut erased);
+        assert_eq!(erased, [0xFF; 4]);
+        // Data words inside a page are never touched.
+        let mut data = [0xFE, 0xFF, 0xFF, 0xFF];
+        WholeWords::<F>::normalise_markers(8, &mut data);
+        assert_eq!(data, [0xFE, 0xFF, 0xFF, 0xFF]);
     }
 }

@@ -155,7 +155,7 @@ arm-none-eabi-nm -C -S --size-sort "$target_dir/thumbv7em-none-eabihf/release/si
     else if (name ~ /^libm::/) g = "libm"
     else if (name ~ /^compiler_builtins::|^__aeabi|^__[a-z]+[sd]f[0-9]*$/) g = "compiler_builtins (soft f64, int division)"
     else if (name ~ /^core::slice::sort/) g = "core::slice::sort (robust medians)"
-    else if (name ~ /^size_probe::|__cortex_m_rt_main/) g = "probe main (pipeline inlined into it)"
+    else if (name ~ /^size_probe::|__cortex_m_rt_main/) g = "pipeline.rs and main (library code inlined into them)"
     sum[g] += hex($2)
   }
   END { for (g in sum) printf "%8d  %s\n", sum[g], g }' | sort -rn

@@ -1,8 +1,10 @@
 //! lumisorb on an emulated Cortex-M board: the whole pipeline on the simulated photometer,
 //! results over semihosting, exit status to the host (0 only when every check passed).
 //!
-//! Also measures the stack high-water mark of one full pipeline run: the free stack is painted
-//! with a pattern before, and after the run the deepest overwritten word is found.
+//! Also measures the stack high-water marks of one full measurement and of the whole pipeline:
+//! the free stack is painted with a pattern before each, and after it the deepest overwritten
+//! word is found; the figure is the depth below the caller's stack pointer (the firmware's own
+//! frames and the runtime's are reported apart, in the total).
 #![no_std]
 #![no_main]
 
@@ -12,13 +14,13 @@ mod pipeline;
 #[cfg(feature = "defmt")]
 use defmt_semihosting as _;
 
+use core::cell::RefCell;
 use core::fmt::{self, Write};
 use core::panic::PanicInfo;
 
-// Links cortex-m's single-core critical-section implementation (semihosting output uses it).
-use cortex_m as _;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hio};
+use lumisorb::sim::SimRig;
 
 const PAINT: u32 = 0x5AA5_C33C;
 
@@ -48,15 +50,21 @@ fn stack_bounds() -> (usize, usize) {
     )
 }
 
+/// The stack pointer.
+#[inline(always)]
+fn sp() -> usize {
+    let sp: usize;
+    // SAFETY: reads the stack pointer register, no memory access.
+    unsafe { core::arch::asm!("mov {}, sp", out(reg) sp) };
+    sp
+}
+
 /// Paints the unused stack (below the current stack pointer, minus a margin for this
 /// function's own frame) with [`PAINT`].
 #[inline(never)]
 fn paint_stack() {
-    let sp: usize;
-    // SAFETY: reads the stack pointer register, no memory access.
-    unsafe { core::arch::asm!("mov {}, sp", out(reg) sp) };
     let (bottom, _) = stack_bounds();
-    let end = sp.saturating_sub(128) & !3;
+    let end = sp().saturating_sub(128) & !3;
     let mut p = bottom;
     while p < end {
         // SAFETY: [bottom, end) is RAM between the statics and the live stack: nothing lives
@@ -66,25 +74,36 @@ fn paint_stack() {
     }
 }
 
-/// Bytes of stack used so far: from the top of RAM down to the deepest overwritten word.
+/// The deepest stack address overwritten since the last paint.
 #[inline(never)]
-fn stack_high_water() -> (usize, usize) {
+fn deepest_touched() -> usize {
     let (bottom, top) = stack_bounds();
     let mut p = bottom;
     // SAFETY: reads RAM words between the statics and the stack top, all initialised above.
     while p < top && unsafe { (p as *const u32).read_volatile() } == PAINT {
         p += 4;
     }
-    (top - p, top - bottom)
+    p
 }
 
 #[entry]
 fn main() -> ! {
-    // One full measurement first, on a freshly painted stack.
-    paint_stack();
-    let single = pipeline::single_measurement();
-    let (one, available) = stack_high_water();
-    let ok = whole_pipeline(single, one, available);
+    // The simulated photometer stands in for the hardware: its state lives in a static, like
+    // a driver's peripheral, and the stack figures count what runs below the caller.
+    let ok = match pipeline::new_rig() {
+        Ok(r) => match cortex_m::singleton!(: RefCell<SimRig> = RefCell::new(r)) {
+            Some(rig) => {
+                // One full measurement first, on a freshly painted stack.
+                paint_stack();
+                let base = sp();
+                let single = pipeline::single_measurement(rig);
+                let one = base.saturating_sub(deepest_touched());
+                whole_pipeline(rig, single, one)
+            }
+            None => false,
+        },
+        Err(_) => false,
+    };
     debug::exit(if ok {
         debug::EXIT_SUCCESS
     } else {
@@ -96,10 +115,18 @@ fn main() -> ! {
 
 /// The whole pipeline, its report and checks; its own frame holds the results.
 #[inline(never)]
-fn whole_pipeline(single: Result<f32, pipeline::Failure>, one: usize, available: usize) -> bool {
+fn whole_pipeline(
+    rig: &RefCell<SimRig>,
+    single: Result<f32, pipeline::Failure>,
+    one: usize,
+) -> bool {
     paint_stack();
-    let outcome = pipeline::measure();
-    let (all, _) = stack_high_water();
+    let base = sp();
+    let outcome = pipeline::measure(rig);
+    let deepest = deepest_touched();
+    let all = base.saturating_sub(deepest);
+    let (bottom, top) = stack_bounds();
+    let total = top - deepest;
 
     let mut out = Host(hio::hstdout().ok());
     let board = env!("LUMISORB_BOARD");
@@ -115,7 +142,8 @@ fn whole_pipeline(single: Result<f32, pipeline::Failure>, one: usize, available:
     let _ = pipeline::report(&outcome, &mut out);
     let _ = writeln!(
         out,
-        "stack one_measurement_bytes={one} whole_pipeline_bytes={all} available_bytes={available}"
+        "stack one_measurement_bytes={one} whole_pipeline_bytes={all} firmware_total_bytes={total} available_bytes={}",
+        top - bottom
     );
     let ok = pipeline::check(&outcome, &mut out) && single.is_ok();
     let _ = writeln!(out, "result {}", if ok { "PASS" } else { "FAIL" });

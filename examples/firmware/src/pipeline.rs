@@ -113,11 +113,19 @@ impl Failure {
     }
 }
 
-/// Runs the whole pipeline.
-pub fn measure() -> Result<Outcome, Failure> {
+/// A fresh simulated photometer (power-up state, the demo seed).
+pub fn new_rig() -> Result<SimRig, Failure> {
     let bench = SimBench::new(SimConfig::GREEN_DEMO, SEED).map_err(|_| Failure::Sim)?;
-    let rig = RefCell::new(SimRig::new(bench));
-    let mut seq = Sequencer::new(SimRig::hardware(&rig), SequenceConfig::default())
+    Ok(SimRig::new(bench))
+}
+
+/// Runs the whole pipeline on `rig`, reset to its power-up state first. The caller owns the
+/// rig's storage (the firmware keeps it in a static, so the stack figures count the
+/// measurement, not the simulator's state).
+#[inline(never)] // its frame must lie below the caller's stack pointer for the stack figure
+pub fn measure(rig: &RefCell<SimRig>) -> Result<Outcome, Failure> {
+    *rig.try_borrow_mut().map_err(|_| Failure::Sim)? = new_rig()?;
+    let mut seq = Sequencer::new(SimRig::hardware(rig), SequenceConfig::default())
         .map_err(|_| Failure::Sequence("sequencer configuration"))?;
     let cancel = &mut NeverCancel;
 
@@ -347,12 +355,12 @@ pub fn check(outcome: &Result<Outcome, Failure>, out: &mut impl Write) -> bool {
     all
 }
 
-/// One full measurement on its own (auto-exposure, blank, one sample), for the stack figure:
-/// the sample's absorbance.
-pub fn single_measurement() -> Result<f32, Failure> {
-    let bench = SimBench::new(SimConfig::GREEN_DEMO, SEED).map_err(|_| Failure::Sim)?;
-    let rig = RefCell::new(SimRig::new(bench));
-    let mut seq = Sequencer::new(SimRig::hardware(&rig), SequenceConfig::default())
+/// One full measurement on its own (auto-exposure, blank, one sample) on `rig`, reset to its
+/// power-up state first, for the stack figure: the sample's absorbance.
+#[inline(never)] // its frame must lie below the caller's stack pointer for the stack figure
+pub fn single_measurement(rig: &RefCell<SimRig>) -> Result<f32, Failure> {
+    *rig.try_borrow_mut().map_err(|_| Failure::Sim)? = new_rig()?;
+    let mut seq = Sequencer::new(SimRig::hardware(rig), SequenceConfig::default())
         .map_err(|_| Failure::Sequence("sequencer configuration"))?;
     let blank = seq
         .measure_blank(&mut NeverCancel)

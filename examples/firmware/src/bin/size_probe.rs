@@ -8,6 +8,7 @@
 #[allow(dead_code)]
 mod pipeline;
 
+use core::cell::RefCell;
 use core::panic::PanicInfo;
 
 use cortex_m_rt::entry;
@@ -15,7 +16,15 @@ use cortex_m_semihosting::debug;
 
 #[entry]
 fn main() -> ! {
-    let ok = match pipeline::measure() {
+    let Some(rig) = pipeline::new_rig()
+        .ok()
+        .and_then(|r| cortex_m::singleton!(: RefCell<lumisorb::sim::SimRig> = RefCell::new(r)))
+    else {
+        debug::exit(debug::EXIT_FAILURE);
+        #[allow(clippy::empty_loop)]
+        loop {}
+    };
+    let ok = match pipeline::measure(rig) {
         Ok(o) => pipeline::checks(&o).iter().all(|c| c.1),
         Err(_) => false,
     };

@@ -8,6 +8,7 @@
 #[allow(dead_code)]
 mod pipeline;
 
+use core::cell::RefCell;
 use core::panic::PanicInfo;
 
 use cortex_m_rt::entry;
@@ -15,8 +16,16 @@ use cortex_m_semihosting::debug;
 
 #[entry]
 fn main() -> ! {
+    let Some(rig) = pipeline::new_rig()
+        .ok()
+        .and_then(|r| cortex_m::singleton!(: RefCell<lumisorb::sim::SimRig> = RefCell::new(r)))
+    else {
+        debug::exit(debug::EXIT_FAILURE);
+        #[allow(clippy::empty_loop)]
+        loop {}
+    };
     // The demo dye at 2 units reads about A = 0.45 (see the firmware's report).
-    let ok = matches!(pipeline::single_measurement(), Ok(a) if a > 0.40 && a < 0.50);
+    let ok = matches!(pipeline::single_measurement(rig), Ok(a) if a > 0.40 && a < 0.50);
     debug::exit(if ok {
         debug::EXIT_SUCCESS
     } else {

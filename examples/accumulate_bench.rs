@@ -1,6 +1,6 @@
 //! Instruction-count benchmark of one raw read accumulation (the per-read hot path).
 //!
-//! `scripts/bench-accumulate.sh` runs this under callgrind with 1 000 and 61 000 reads (below 65 536, the fast path), with
+//! `budgets/accumulate.sh` runs this under callgrind with 1 000 and 61 000 reads (below 65 536, the fast path), with
 //! and without the accumulator (argument `baseline`: the same loop making the same reads), and
 //! divides the difference by 60 000: instructions per accumulated read, repeatable on a busy
 //! machine. The reads are a simulated ripple (invented data).

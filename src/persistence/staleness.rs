@@ -15,9 +15,38 @@
 //! but the result carries [`Flag::StaleCalibration`] (`stale_calibration` in CSV, JSON and the
 //! replay vocabulary, advice: "calibration is stale or from other settings: recalibrate").
 //! [`Staleness`] says which of the reasons applied, for a display or a log.
+//!
+//! A stored calibration is used through [`CalibrationRecord::quantify`], which judges it
+//! against the current settings and clock and adds the flag itself, so that a caller cannot
+//! forget to: the [`Calibration`](crate::calibration::Calibration) inside a record is public for
+//! display, but the quantifying path of a firmware goes through the record.
 
 use super::{CalibrationRecord, MethodSettings};
-use crate::{Flag, Flags};
+use crate::quantification::{Dilution, Quantified, QuantifyError};
+use crate::{Absorbance, Flag, Flags};
+
+impl CalibrationRecord {
+    /// Concentration of a sample from this stored calibration, measured under `settings` at
+    /// `now_s` (instrument clock, seconds): the method's dilution factor is applied and, when
+    /// the calibration is stale for that measurement ([`Staleness::of`]), the result carries
+    /// [`Flag::StaleCalibration`] on top of `photometric_flags`.
+    ///
+    /// Errors: as [`Calibration::quantify`](crate::calibration::Calibration::quantify), and
+    /// [`QuantifyError`] for a dilution factor in the settings that is not valid.
+    pub fn quantify(
+        &self,
+        settings: &MethodSettings,
+        now_s: u32,
+        absorbance: Absorbance,
+        replicates: u16,
+        photometric_flags: Flags,
+    ) -> Result<Quantified, QuantifyError> {
+        let dilution = Dilution::new(settings.dilution_factor)?;
+        let flags = photometric_flags.union(Staleness::of(self, settings, now_s).flags());
+        self.calibration
+            .quantify(absorbance, replicates, dilution, flags)
+    }
+}
 
 /// Which staleness rules a calibration breaks (all `false`: fresh).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
@@ -107,6 +136,23 @@ mod tests {
             dilution_factor: 1.0,
             max_calibration_age_s: max_age_s,
         }
+    }
+
+    #[test]
+    fn quantifying_through_the_record_adds_the_flag() {
+        let day = settings(3_600);
+        let a = Absorbance::new(0.3).unwrap();
+        let fresh = calibration(1_000, 10.0, 2)
+            .quantify(&day, 2_000, a, 1, Flags::NONE)
+            .unwrap();
+        assert!(!fresh.flags.contains(Flag::StaleCalibration));
+        let old = calibration(1_000, 10.0, 2)
+            .quantify(&day, 10_000, a, 1, Flags::only(Flag::Unstable))
+            .unwrap();
+        assert!(old.flags.contains(Flag::StaleCalibration));
+        assert!(old.flags.contains(Flag::Unstable));
+        // A stale calibration still gives the same concentration: the flag says recalibrate.
+        assert_eq!(old.concentration, fresh.concentration);
     }
 
     #[test]

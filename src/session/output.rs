@@ -1,6 +1,13 @@
 //! Machine-readable replay output through any [`core::fmt::Write`]: the `lumisorb-replay-1`
 //! JSON object of the session format, and CSV with one row per measurement. Heap-free, so a
 //! device can print its results over a UART in the same form the host tool does.
+//!
+//! Flags are written with the words of the fixed vocabulary, [`Flag::name`](crate::Flag::name):
+//! `saturated`, `low_signal`, `above_range`, `below_lod`, `below_loq`, `unstable`, `no_blank`,
+//! `no_calibration`, `no_dark`, and `stale_calibration` (an addition of lumisorb to the session
+//! format's list: a result quantified with a stored calibration that is too old or was made with
+//! another path length or method revision, see [`crate::persistence::staleness`]; a replay of a
+//! recorded session fits its own calibration, so it never raises this flag).
 
 use core::fmt::{self, Write};
 

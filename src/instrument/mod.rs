@@ -11,8 +11,8 @@
 //!   60-85 % of full scale ([`exposure`]), interleaved dark/lit measurements of blanks and
 //!   samples with saturation back-off ([`sequencer`]), giving [`NetSignal`](crate::NetSignal)s
 //!   and [`PhotometricResult`](crate::PhotometricResult)s.
-//! * With the `async` feature, [`AsyncSequencer`] does the same over
-//!   `embedded_hal_async::delay::DelayNs` and [`AsyncDetector`].
+//! * With the `async` feature, `asynch::AsyncSequencer` does the same over
+//!   `embedded_hal_async::delay::DelayNs` and `asynch::AsyncDetector`.
 //! * With the `defmt` feature the sequencer logs its events through defmt; without it no
 //!   logging or formatting code exists.
 //!

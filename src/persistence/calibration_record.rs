@@ -31,7 +31,7 @@
 
 use super::codec::{Reader, Writer};
 use super::record::{self, DecodeError, EncodeError, Record, RecordKind, FRAME_OVERHEAD};
-use super::store::{LoadError, RecordKey, RecordMap, StoreError};
+use super::store::{load_channel_record, LoadError, RecordKey, RecordMap, StoreError};
 use super::MethodId;
 use crate::calibration::{Calibration, CalibrationSet, Model, SigmaSource, Standard, Weighting};
 use crate::Absorbance;
@@ -130,16 +130,7 @@ impl CalibrationRecord {
     /// statistics, or one that names another channel than its key is a [`LoadError::Record`]:
     /// never returned as a calibration.
     pub fn load<M: RecordMap>(map: &mut M, channel: u8) -> Result<Option<Self>, LoadError> {
-        match map.fetch_record(Self::key(channel), Self::decode)? {
-            None => Ok(None),
-            Some(Err(e)) => Err(LoadError::Record(e)),
-            Some(Ok(c)) if c.channel != channel => {
-                Err(LoadError::Record(DecodeError::OutOfRange {
-                    field: "channel",
-                }))
-            }
-            Some(Ok(c)) => Ok(Some(c)),
-        }
+        load_channel_record(map, Self::key(channel), Self::decode, |r| r.channel)
     }
 }
 

@@ -19,7 +19,7 @@
 
 use super::codec::{Reader, Writer};
 use super::record::{self, DecodeError, EncodeError, Record, RecordKind, FRAME_OVERHEAD};
-use super::store::{LoadError, RecordKey, RecordMap, StoreError};
+use super::store::{load_channel_record, LoadError, RecordKey, RecordMap, StoreError};
 
 /// Which analytical method a calibration or setting belongs to, and which revision of it.
 ///
@@ -116,16 +116,7 @@ impl MethodSettings {
     /// A record that is damaged, of an unknown version, or that names another channel than its
     /// key is a [`LoadError::Record`], never returned as settings.
     pub fn load<M: RecordMap>(map: &mut M, channel: u8) -> Result<Option<Self>, LoadError> {
-        match map.fetch_record(Self::key(channel), Self::decode)? {
-            None => Ok(None),
-            Some(Err(e)) => Err(LoadError::Record(e)),
-            Some(Ok(s)) if s.channel != channel => {
-                Err(LoadError::Record(DecodeError::OutOfRange {
-                    field: "channel",
-                }))
-            }
-            Some(Ok(s)) => Ok(Some(s)),
-        }
+        load_channel_record(map, Self::key(channel), Self::decode, |r| r.channel)
     }
 }
 

@@ -150,6 +150,27 @@ impl From<DecodeError> for LoadError {
     }
 }
 
+/// Fetches the record stored under `key` and decodes it; a record that decodes but names
+/// another channel than its key is refused like a damaged one. The one loading path of every
+/// per-channel record (calibrations, method settings).
+pub(crate) fn load_channel_record<M: RecordMap, R>(
+    map: &mut M,
+    key: RecordKey,
+    decode: fn(&[u8]) -> Result<R, DecodeError>,
+    channel_of: fn(&R) -> u8,
+) -> Result<Option<R>, LoadError> {
+    match map.fetch_record(key, decode)? {
+        None => Ok(None),
+        Some(Err(e)) => Err(LoadError::Record(e)),
+        Some(Ok(r)) if channel_of(&r) != key.channel => {
+            Err(LoadError::Record(DecodeError::OutOfRange {
+                field: "channel",
+            }))
+        }
+        Some(Ok(r)) => Ok(Some(r)),
+    }
+}
+
 /// Latest record per key.
 pub trait RecordMap {
     /// Stores `record` under `key`, replacing the previous one only once the new one is

@@ -46,11 +46,19 @@ fn ln_beta(a: f64, b: f64) -> f64 {
 /// Out-of-domain arguments are clamped (x <= 0 gives 0, y <= 0 gives 1); never NaN for finite
 /// positive a, b.
 pub(crate) fn regularized(a: f64, b: f64, x: f64, y: f64) -> f64 {
+    regularized_with_front(a, b, x, y).0
+}
+
+/// I_x(a, b) as [`regularized`], and its front factor x^a·y^b / B(a, b) (0 when clamped).
+///
+/// The front factor is x·y·dI_x/dx, so the Student t density comes with the tail at no extra
+/// cost (see `crate::student_t`).
+pub(crate) fn regularized_with_front(a: f64, b: f64, x: f64, y: f64) -> (f64, f64) {
     if x.is_nan() || y.is_nan() || x <= 0.0 {
-        return 0.0;
+        return (0.0, 0.0);
     }
     if y <= 0.0 {
-        return 1.0;
+        return (1.0, 0.0);
     }
     let ln_front = a * math::ln(x) + b * math::ln(y) - ln_beta(a, b);
     let front = math::exp(ln_front);
@@ -60,9 +68,9 @@ pub(crate) fn regularized(a: f64, b: f64, x: f64, y: f64) -> f64 {
         1.0 - front * continued_fraction(b, a, y) / b
     };
     if value.is_finite() {
-        value.clamp(0.0, 1.0)
+        (value.clamp(0.0, 1.0), front)
     } else {
-        0.0
+        (0.0, 0.0)
     }
 }
 

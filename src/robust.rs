@@ -119,15 +119,18 @@ impl<const N: usize> RobustBuffer<N> {
         if n == 0 {
             return None;
         }
-        self.reads.sort_unstable();
+        insertion_sort(&mut self.reads);
         let median = median_of_sorted_u32(&self.reads)?;
-        let mut dev = [0f32; N];
+        // Absolute deviations as the bits of non-negative f32 (finite: |x - m| of two f32 that
+        // came from u32): for them the unsigned order of the bits is the numeric order, so one
+        // integer sort serves both medians.
+        let mut dev = [0u32; N];
         for (d, &x) in dev.iter_mut().zip(self.reads.iter()) {
-            *d = math::absf(x as f32 - median);
+            *d = math::absf(x as f32 - median).to_bits();
         }
         let devs = dev.get_mut(..n)?;
-        devs.sort_unstable_by(f32::total_cmp);
-        let mad = median_of_sorted_f32(devs)?;
+        insertion_sort(devs);
+        let mad = median_of_sorted_bits(devs)?;
         let scale = (MAD_TO_SIGMA * mad).max(SCALE_FLOOR);
 
         let mut mu = median;
@@ -201,13 +204,32 @@ fn median_of_sorted_u32(v: &[u32]) -> Option<f32> {
     }
 }
 
-fn median_of_sorted_f32(v: &[f32]) -> Option<f32> {
+/// The median of sorted f32 bit patterns (non-negative values).
+fn median_of_sorted_bits(v: &[u32]) -> Option<f32> {
     let n = v.len();
-    let hi = *v.get(n / 2)?;
+    let hi = f32::from_bits(*v.get(n / 2)?);
     if n % 2 == 1 {
         Some(hi)
     } else {
-        Some((*v.get(n / 2 - 1)? + hi) / 2.0)
+        Some((f32::from_bits(*v.get(n / 2 - 1)?) + hi) / 2.0)
+    }
+}
+
+/// Sorts ascending by insertion: the buffers hold a few dozen reads, where this is as fast as
+/// any sort and far smaller in flash than `sort_unstable` (about 2 kB less on a Cortex-M).
+fn insertion_sort(v: &mut [u32]) {
+    for i in 1..v.len() {
+        let mut j = i;
+        while j > 0 {
+            let Some([a, b]) = v.get_mut(j - 1..=j) else {
+                break;
+            };
+            if *a <= *b {
+                break;
+            }
+            core::mem::swap(a, b);
+            j -= 1;
+        }
     }
 }
 
@@ -285,6 +307,29 @@ mod tests {
         let h = b.huber().unwrap();
         assert_eq!(h.rejected, 2);
         assert!((h.location - 10_000.0).abs() < 8.0, "{h:?}");
+    }
+
+    #[test]
+    fn insertion_sort_agrees_with_the_standard_sort() {
+        // Reference: core's sort_unstable (u32) and f32::total_cmp (non-negative deviations).
+        let mut g = Gauss(99);
+        for len in 0..=40usize {
+            let mut v = [0u32; 40];
+            for x in v.iter_mut().take(len) {
+                *x = (g.uniform() * 70.0) as u32;
+            }
+            let mut ours = v;
+            insertion_sort(&mut ours[..len]);
+            let mut theirs = v;
+            theirs[..len].sort_unstable();
+            assert_eq!(ours, theirs);
+            let devs: std::vec::Vec<f32> = v[..len].iter().map(|&x| x as f32 / 7.0).collect();
+            let mut bits: std::vec::Vec<u32> = devs.iter().map(|d| d.to_bits()).collect();
+            insertion_sort(&mut bits);
+            let mut sorted = devs.clone();
+            sorted.sort_unstable_by(f32::total_cmp);
+            assert!(bits.iter().map(|&b| f32::from_bits(b)).eq(sorted));
+        }
     }
 
     #[test]

@@ -224,11 +224,11 @@ impl ReadAccumulator {
         let mean = self.shift as f32 + (self.sum as f32) / n;
         let variance = if self.count > 1 {
             // n·Σd² - (Σd)² >= 0 exactly (Cauchy-Schwarz), formed without rounding.
-            let n_i = i128::from(self.count);
-            let s = i128::from(self.sum);
-            let numerator = n_i * i128::from(self.sum_sq) - s * s;
-            let denominator = n_i * (n_i - 1);
-            (numerator.max(0) as f32) / (denominator as f32)
+            let n = u64::from(self.count);
+            let s = self.sum.unsigned_abs();
+            let numerator = wide(n, self.sum_sq).saturating_sub(wide(s, s));
+            let denominator = n * (n - 1); // < 2^64 for n < 2^32
+            to_f32(numerator) / to_f32(u128::from(denominator))
         } else {
             0.0
         };
@@ -252,30 +252,101 @@ impl ReadAccumulator {
         if self.count < 3 {
             return None;
         }
-        let n = i128::from(self.count);
-        let sk = n * (n - 1) / 2; // Σk, k = 0 .. n-1
-        let skk = (n - 1) * n * (2 * n - 1) / 6; // Σk²
-        let sd = i128::from(self.sum);
-        // n² × the centred sums: exact integers.
-        let sxx = n * skk - sk * sk;
-        let sxy = n * i128::from(self.sum_kd) - sk * sd;
-        let syy = n * i128::from(self.sum_sq) - sd * sd;
-        if sxx <= 0 {
+        let n = u64::from(self.count);
+        // n² × the centred sums, as exact integers: Σk = n(n-1)/2 and Σk² give
+        // S_kk = n·Σk² - (Σk)² = n²(n²-1)/12 = [n(n-1)/2]·[n(n+1)/2]/3, where the 3 is divided
+        // out of whichever of n-1, n, n+1 is its multiple, in 32 bits (the halvings stay exact:
+        // dividing by 3 keeps parity); S_kd = n·Σkd - Σk·Σd; S_dd = n·Σd² - (Σd)² (>= 0 by
+        // Cauchy-Schwarz).
+        let sk = n * (n - 1) / 2;
+        let third = u64::from(self.count / 3);
+        let sxx = match self.count % 3 {
+            0 => wide(third * (n - 1) / 2, n * (n + 1) / 2),
+            1 => wide(n * third / 2, n * (n + 1) / 2),
+            _ => wide(sk, n * (third + 1) / 2),
+        };
+        let sxy = signed_to_f64(signed_wide(n, self.sum_kd) - signed_wide(sk, self.sum));
+        let sd = self.sum.unsigned_abs();
+        let syy = wide(n, self.sum_sq).saturating_sub(wide(sd, sd));
+        if sxx == 0 {
             return None;
         }
-        let sxx_f = sxx as f64;
-        let sxy_f = sxy as f64;
-        let slope = sxy_f / sxx_f;
+        let nf = f64::from(self.count);
+        let sxx_f = to_f64(sxx);
+        let slope = sxy / sxx_f;
         // Residual sum of squares × n, clamped at 0 against the last rounding.
-        let rss_n = (syy as f64 - sxy_f * slope).max(0.0);
-        let s2 = rss_n / (n as f64) / ((n - 2) as f64);
-        let se = libm::sqrt(s2 / (sxx_f / n as f64));
+        let rss_n = (to_f64(syy) - sxy * slope).max(0.0);
+        let s2 = rss_n / nf / f64::from(self.count - 2);
+        let se = libm::sqrt(s2 / (sxx_f / nf));
         Some(Trend {
             slope: slope as f32,
             slope_std_error: se as f32,
             count: self.count,
         })
     }
+}
+
+/// a·b exactly (one shared copy of the widening multiply).
+#[inline(never)]
+fn wide(a: u64, b: u64) -> u128 {
+    u128::from(a) * u128::from(b)
+}
+
+/// a·b exactly, for |a·b| < 2^127 (the accumulator's sums keep far inside).
+fn signed_wide(a: u64, b: i64) -> i128 {
+    let m = wide(a, b.unsigned_abs()) as i128;
+    if b < 0 {
+        -m
+    } else {
+        m
+    }
+}
+
+/// `x` cut to its 64 leading bits with a sticky bit: (m, e), x ≈ m·2^e, where rounding m to
+/// 53 or fewer bits gives the same result as rounding x (the lost bits only matter as
+/// "nonzero", and the sticky bit keeps that).
+fn sticky64(x: u128) -> (u64, i32) {
+    let hi = (x >> 64) as u64;
+    if hi == 0 {
+        return (x as u64, 0);
+    }
+    let s = 64 - hi.leading_zeros(); // 1..=64 bits to drop
+    let lost = (x << (128 - s)) != 0;
+    ((x >> s) as u64 | u64::from(lost), s as i32)
+}
+
+/// `x as f64`, correctly rounded, without the 128-bit conversion routines (about 0.7 kB of
+/// flash on a Cortex-M): the two 32-bit halves of the sticky 64-bit cut are exact in f64, so
+/// their sum rounds once, and the power-of-two scale is exact.
+fn to_f64(x: u128) -> f64 {
+    let (m, e) = sticky64(x);
+    let v = f64::from((m >> 32) as u32) * 4_294_967_296.0 + f64::from(m as u32);
+    v * f64::from_bits(((1023 + e) as u64) << 52)
+}
+
+/// `x as f64` for a signed exact sum (rounding is symmetric).
+fn signed_to_f64(x: i128) -> f64 {
+    let v = to_f64(x.unsigned_abs());
+    if x < 0 {
+        -v
+    } else {
+        v
+    }
+}
+
+/// `x as f32`, correctly rounded: a second sticky cut to 32 bits, then the 32-bit conversion
+/// (one FPU instruction on a Cortex-M4F), scaled by an exact power of two.
+fn to_f32(x: u128) -> f32 {
+    let (m, e) = sticky64(x);
+    let hi = (m >> 32) as u32;
+    let (m32, e32) = if hi == 0 {
+        (m as u32, e)
+    } else {
+        let s = 32 - hi.leading_zeros(); // 1..=32
+        let lost = (m << (64 - s)) != 0;
+        ((m >> s) as u32 | u32::from(lost), e + s as i32)
+    };
+    m32 as f32 * f32::from_bits(((127 + e32) as u32) << 23)
 }
 
 #[cfg(test)]
@@ -344,6 +415,117 @@ mod tests {
         assert_eq!(a.count(), GUARANTEED_READS);
         let s = a.stats().unwrap();
         assert!(s.mean > 16_776_900.0);
+    }
+
+    /// The previous formulas in plain 128-bit arithmetic (the reference for the cheaper exact
+    /// forms above): variance and (slope, slope standard error).
+    fn reference(a: &ReadAccumulator) -> (f32, Option<(f32, f32)>) {
+        let n = i128::from(a.count);
+        let s = i128::from(a.sum);
+        let variance = if a.count > 1 {
+            ((n * i128::from(a.sum_sq) - s * s).max(0) as f32) / ((n * (n - 1)) as f32)
+        } else {
+            0.0
+        };
+        if a.count < 3 {
+            return (variance, None);
+        }
+        let sk = n * (n - 1) / 2;
+        let skk = (n - 1) * n * (2 * n - 1) / 6;
+        let sxx = n * skk - sk * sk;
+        let sxy = n * i128::from(a.sum_kd) - sk * s;
+        let syy = n * i128::from(a.sum_sq) - s * s;
+        let (sxx_f, sxy_f) = (sxx as f64, sxy as f64);
+        let slope = sxy_f / sxx_f;
+        let rss_n = (syy as f64 - sxy_f * slope).max(0.0);
+        let s2 = rss_n / (n as f64) / ((n - 2) as f64);
+        let se = libm::sqrt(s2 / (sxx_f / n as f64));
+        (variance, Some((slope as f32, se as f32)))
+    }
+
+    fn check_against_reference(a: &ReadAccumulator) {
+        let (variance, trend) = reference(a);
+        if a.count > 0 {
+            assert_eq!(
+                a.stats().unwrap().variance.to_bits(),
+                variance.to_bits(),
+                "{a:?}"
+            );
+        }
+        let ours = a
+            .trend()
+            .map(|t| (t.slope.to_bits(), t.slope_std_error.to_bits()));
+        assert_eq!(
+            ours,
+            trend.map(|(s, e)| (s.to_bits(), e.to_bits())),
+            "{a:?}"
+        );
+    }
+
+    #[test]
+    fn exact_forms_agree_bit_for_bit_with_128_bit_arithmetic() {
+        // Streams of reads (simulated: a xorshift generator, ramps, steps, constant runs).
+        let mut x = 0x9E37_79B9_7F4A_7C15u64;
+        for len in 0..200u32 {
+            for kind in 0..4 {
+                let mut a = acc(crate::counts::MAX_COUNT);
+                for k in 0..len {
+                    x ^= x << 13;
+                    x ^= x >> 7;
+                    x ^= x << 17;
+                    let read = match kind {
+                        0 => (x % 16_777_216) as u32,
+                        1 => 8_000_000 + (x % 7) as u32,
+                        2 => 1_000 + 3 * k + (x % 2) as u32,
+                        _ => 5,
+                    };
+                    a.push(read).unwrap();
+                    check_against_reference(&a);
+                }
+            }
+        }
+        // Sums far beyond what a short stream reaches (the conversions' 128-bit range).
+        for &(count, sum, sum_sq, sum_kd) in &[
+            (u32::MAX, i64::MAX / 3, u64::MAX, i64::MIN / 5),
+            (
+                u32::MAX - 1,
+                -(1i64 << 60),
+                u64::MAX / 2 + 12_345,
+                1i64 << 62,
+            ),
+            (
+                3_000_000_001,
+                123_456_789_012_345,
+                987_654_321_098_765_432,
+                -55_555_555_555_555,
+            ),
+            (65_537, -1, 1, 0),
+            (4, 0, 0, 0),
+        ] {
+            let mut a = acc(crate::counts::MAX_COUNT);
+            a.count = count;
+            a.sum = sum;
+            a.sum_sq = sum_sq;
+            a.sum_kd = sum_kd;
+            check_against_reference(&a);
+        }
+        // Conversions at and around powers of two and ties (reference: Rust's `as`).
+        for e in 0..128u32 {
+            let p = 1u128 << e;
+            let ties = [
+                p | (p >> 24),
+                p | (p >> 24) | 1,
+                p | (p >> 53),
+                p | (p >> 53) | 1,
+            ];
+            for v in [p, p - 1, p + 1, p | (p >> 25), p | (p >> 54)]
+                .into_iter()
+                .chain(ties)
+            {
+                assert_eq!(to_f64(v).to_bits(), (v as f64).to_bits(), "{v}");
+                assert_eq!(to_f32(v).to_bits(), (v as f32).to_bits(), "{v}");
+            }
+        }
     }
 
     #[test]

@@ -176,7 +176,7 @@ pub fn measure(rig: &RefCell<SimRig>) -> Result<Outcome, Failure> {
         calibration,
         samples,
         reads: r.reads(),
-        sim_ms: r.now_us() / 1000,
+        sim_ms: r.now_ms_total(),
     })
 }
 

@@ -83,21 +83,22 @@ fn continued_fraction(a: f64, b: f64, x: f64) -> f64 {
     let mut c = 1.0;
     let mut d = 1.0 / guard(1.0 - qab * x / qap);
     let mut h = d;
-    for m in 1..=MAX_TERMS {
-        let m = f64::from(m);
+    // Steps 2m (even) and 2m+1 (odd) of the fraction for m = 1, 2, ...: only their
+    // coefficient differs, so one loop body serves both.
+    for step in 2..=2 * MAX_TERMS + 1 {
+        let odd = step % 2 == 1;
+        let m = f64::from(step / 2);
         let m2 = 2.0 * m;
-        // Even step.
-        let aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 / guard(1.0 + aa * d);
-        c = guard(1.0 + aa / c);
-        h *= d * c;
-        // Odd step.
-        let aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
+        let aa = if odd {
+            -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2))
+        } else {
+            m * (b - m) * x / ((qam + m2) * (a + m2))
+        };
         d = 1.0 / guard(1.0 + aa * d);
         c = guard(1.0 + aa / c);
         let delta = d * c;
         h *= delta;
-        if (delta - 1.0).abs() < EPS {
+        if odd && (delta - 1.0).abs() < EPS {
             break;
         }
     }

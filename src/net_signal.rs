@@ -188,21 +188,30 @@ struct Located {
 /// accumulators (under 256 bytes in all; see the size test).
 #[derive(Clone, Debug)]
 pub struct DarkLitSeries<const N: usize = 32> {
+    streams: Streams,
+    dark_buffer: RobustBuffer<N>,
+    lit_buffer: RobustBuffer<N>,
+}
+
+/// The accumulators of a series: the part that does not depend on `N`, so its code exists once
+/// whatever capacities a program uses.
+#[derive(Clone, Debug)]
+struct Streams {
     dark: ReadAccumulator,
     lit: ReadAccumulator,
     reference: Option<(ReadAccumulator, ReadAccumulator)>,
-    dark_buffer: RobustBuffer<N>,
-    lit_buffer: RobustBuffer<N>,
 }
 
 impl<const N: usize> DarkLitSeries<N> {
     /// An empty series for a measuring detector and, optionally, a reference detector.
     pub fn new(signal_full_scale: FullScale, reference_full_scale: Option<FullScale>) -> Self {
         DarkLitSeries {
-            dark: ReadAccumulator::new(signal_full_scale),
-            lit: ReadAccumulator::new(signal_full_scale),
-            reference: reference_full_scale
-                .map(|fs| (ReadAccumulator::new(fs), ReadAccumulator::new(fs))),
+            streams: Streams {
+                dark: ReadAccumulator::new(signal_full_scale),
+                lit: ReadAccumulator::new(signal_full_scale),
+                reference: reference_full_scale
+                    .map(|fs| (ReadAccumulator::new(fs), ReadAccumulator::new(fs))),
+            },
             dark_buffer: RobustBuffer::new(),
             lit_buffer: RobustBuffer::new(),
         }
@@ -210,39 +219,34 @@ impl<const N: usize> DarkLitSeries<N> {
 
     /// Forgets every read, keeping the detectors' full scales.
     pub fn clear(&mut self) {
-        self.dark.clear();
-        self.lit.clear();
-        if let Some((d, l)) = self.reference.as_mut() {
-            d.clear();
-            l.clear();
-        }
+        self.streams.clear();
         self.dark_buffer.clear();
         self.lit_buffer.clear();
     }
 
     /// Whether the series has a reference detector.
     pub fn has_reference(&self) -> bool {
-        self.reference.is_some()
+        self.streams.reference.is_some()
     }
 
     /// Lit reads so far.
     pub fn lit_reads(&self) -> u32 {
-        self.lit.count()
+        self.streams.lit.count()
     }
 
     /// Dark reads so far.
     pub fn dark_reads(&self) -> u32 {
-        self.dark.count()
+        self.streams.dark.count()
     }
 
     /// Statistics of the lit reads of the measuring detector so far.
     pub fn lit_stats(&self) -> Result<ReadStats, AccumulateError> {
-        self.lit.stats()
+        self.streams.lit.stats()
     }
 
     /// Statistics of the dark reads of the measuring detector so far.
     pub fn dark_stats(&self) -> Result<ReadStats, AccumulateError> {
-        self.dark.stats()
+        self.streams.dark.stats()
     }
 
     /// Adds one dark read (LED off). On error nothing changes.
@@ -255,6 +259,43 @@ impl<const N: usize> DarkLitSeries<N> {
         self.push(true, signal, reference)
     }
 
+    fn push(
+        &mut self,
+        lit: bool,
+        signal: u32,
+        reference: Option<u32>,
+    ) -> Result<(), NetSignalError> {
+        self.streams.push(lit, signal, reference)?;
+        // The buffer keeps the first N reads; beyond them the plain mean is used.
+        let buffer = if lit {
+            &mut self.lit_buffer
+        } else {
+            &mut self.dark_buffer
+        };
+        let _ = buffer.push(signal);
+        Ok(())
+    }
+
+    /// The net levels, their standard errors and the quality flags of the measurement.
+    pub fn finish(&self, config: &SeriesConfig) -> Result<NetSignal, NetSignalError> {
+        config.validate()?;
+        let lit = locate(&self.streams.lit, &self.lit_buffer);
+        let dark = locate(&self.streams.dark, &self.dark_buffer);
+        self.streams.finish(config, lit, dark)
+    }
+}
+
+impl Streams {
+    fn clear(&mut self) {
+        self.dark.clear();
+        self.lit.clear();
+        if let Some((d, l)) = self.reference.as_mut() {
+            d.clear();
+            l.clear();
+        }
+    }
+
+    /// Adds one read to the accumulators; on error nothing changes.
     fn push(
         &mut self,
         lit: bool,
@@ -285,20 +326,20 @@ impl<const N: usize> DarkLitSeries<N> {
         }
         if lit {
             self.lit = main_next;
-            // The buffer keeps the first N reads; beyond them the plain mean is used.
-            let _ = self.lit_buffer.push(signal);
         } else {
             self.dark = main_next;
-            let _ = self.dark_buffer.push(signal);
         }
         Ok(())
     }
 
-    /// The net levels, their standard errors and the quality flags of the measurement.
-    pub fn finish(&self, config: &SeriesConfig) -> Result<NetSignal, NetSignalError> {
-        config.validate()?;
-        let lit = locate(&self.lit, &self.lit_buffer).ok_or(NetSignalError::NoLitReads)?;
-        let dark = locate(&self.dark, &self.dark_buffer);
+    /// [`DarkLitSeries::finish`] once the locations of the lit and dark reads are known.
+    fn finish(
+        &self,
+        config: &SeriesConfig,
+        lit: Option<Located>,
+        dark: Option<Located>,
+    ) -> Result<NetSignal, NetSignalError> {
+        let lit = lit.ok_or(NetSignalError::NoLitReads)?;
         let mut flags = Flags::NONE;
         flags.set_if(Flag::Saturated, self.lit.at_full_scale() > 0);
         flags.set_if(Flag::NoDark, dark.is_none());

@@ -112,8 +112,8 @@ impl<const N: usize> RobustBuffer<N> {
 
     /// The Huber location of the reads held (see the module docs); `None` when empty.
     ///
-    /// Sorts the held reads in place (their order carries no meaning here) and uses `4·N` bytes
-    /// of stack for the absolute deviations.
+    /// Sorts the held reads in place (their order carries no meaning here); needs no buffer
+    /// for the absolute deviations.
     pub fn huber(&mut self) -> Option<RobustEstimate> {
         let n = self.reads.len();
         if n == 0 {
@@ -121,16 +121,7 @@ impl<const N: usize> RobustBuffer<N> {
         }
         insertion_sort(&mut self.reads);
         let median = median_of_sorted_u32(&self.reads)?;
-        // Absolute deviations as the bits of non-negative f32 (finite: |x - m| of two f32 that
-        // came from u32): for them the unsigned order of the bits is the numeric order, so one
-        // integer sort serves both medians.
-        let mut dev = [0u32; N];
-        for (d, &x) in dev.iter_mut().zip(self.reads.iter()) {
-            *d = math::absf(x as f32 - median).to_bits();
-        }
-        let devs = dev.get_mut(..n)?;
-        insertion_sort(devs);
-        let mad = median_of_sorted_bits(devs)?;
+        let mad = median_abs_deviation(&self.reads, median)?;
         let scale = (MAD_TO_SIGMA * mad).max(SCALE_FLOOR);
 
         let mut mu = median;
@@ -204,15 +195,35 @@ fn median_of_sorted_u32(v: &[u32]) -> Option<f32> {
     }
 }
 
-/// The median of sorted f32 bit patterns (non-negative values).
-fn median_of_sorted_bits(v: &[u32]) -> Option<f32> {
-    let n = v.len();
-    let hi = f32::from_bits(*v.get(n / 2)?);
-    if n % 2 == 1 {
-        Some(hi)
-    } else {
-        Some((f32::from_bits(*v.get(n / 2 - 1)?) + hi) / 2.0)
+/// The median of |x - m| over `sorted` reads, without storing the deviations: x ↦ x - m is
+/// monotone in f32 too, so the deviations fall up to m and rise after it, and their sorted
+/// order is the merge of two walks outwards from m (as a sort of the deviations would give).
+fn median_abs_deviation(sorted: &[u32], m: f32) -> Option<f32> {
+    let n = sorted.len();
+    let dev = |i: usize| sorted.get(i).map(|&x| math::absf(x as f32 - m));
+    let mut up = sorted.iter().position(|&x| x as f32 >= m).unwrap_or(n);
+    let mut down = up; // the next read below m is at down - 1
+    let (mut prev, mut cur) = (0.0f32, 0.0f32);
+    for _ in 0..=n / 2 {
+        let below = down.checked_sub(1).and_then(dev);
+        prev = cur;
+        cur = match (below, dev(up)) {
+            (Some(b), Some(a)) if b > a => {
+                up += 1;
+                a
+            }
+            (Some(b), _) => {
+                down -= 1;
+                b
+            }
+            (None, Some(a)) => {
+                up += 1;
+                a
+            }
+            (None, None) => return None,
+        };
     }
+    Some(if n % 2 == 1 { cur } else { (prev + cur) / 2.0 })
 }
 
 /// Sorts ascending by insertion: the buffers hold a few dozen reads, where this is as fast as
@@ -310,8 +321,8 @@ mod tests {
     }
 
     #[test]
-    fn insertion_sort_agrees_with_the_standard_sort() {
-        // Reference: core's sort_unstable (u32) and f32::total_cmp (non-negative deviations).
+    fn insertion_sort_and_merge_walk_agree_with_sorting() {
+        // Reference: core's sort_unstable (u32; f32::total_cmp for the deviations).
         let mut g = Gauss(99);
         for len in 0..=40usize {
             let mut v = [0u32; 40];
@@ -323,12 +334,32 @@ mod tests {
             let mut theirs = v;
             theirs[..len].sort_unstable();
             assert_eq!(ours, theirs);
-            let devs: std::vec::Vec<f32> = v[..len].iter().map(|&x| x as f32 / 7.0).collect();
-            let mut bits: std::vec::Vec<u32> = devs.iter().map(|d| d.to_bits()).collect();
-            insertion_sort(&mut bits);
-            let mut sorted = devs.clone();
-            sorted.sort_unstable_by(f32::total_cmp);
-            assert!(bits.iter().map(|&b| f32::from_bits(b)).eq(sorted));
+            // The MAD by the merge walk equals the median of the sorted deviations.
+            if len > 0 {
+                for m in [
+                    ours[len / 2] as f32,
+                    ours[(len - 1) / 2] as f32 + 0.5,
+                    35.25,
+                ] {
+                    let mut devs: std::vec::Vec<f32> =
+                        ours[..len].iter().map(|&x| (x as f32 - m).abs()).collect();
+                    devs.sort_unstable_by(f32::total_cmp);
+                    let expected = if len % 2 == 1 {
+                        devs[len / 2]
+                    } else {
+                        (devs[len / 2 - 1] + devs[len / 2]) / 2.0
+                    };
+                    let got = median_abs_deviation(&ours[..len], m).unwrap();
+                    assert_eq!(
+                        got.to_bits(),
+                        expected.to_bits(),
+                        "{:?} m {m}",
+                        &ours[..len]
+                    );
+                }
+            } else {
+                assert_eq!(median_abs_deviation(&[], 1.0), None);
+            }
         }
     }
 

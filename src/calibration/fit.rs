@@ -149,7 +149,8 @@ fn basis(t: f64) -> [f64; 3] {
 }
 
 impl Fit {
-    /// Fits `model` to points (x[i], y[i]) with optional relative `weights` (all 1 if `None`).
+    /// Fits `model` to points (`x[i]`, `y[i]`) with optional relative `weights` (all 1 if
+    /// `None`).
     ///
     /// ```
     /// use lumisorb::calibration::{Fit, Model};
@@ -262,27 +263,42 @@ impl Fit {
         let rinv = upper_inverse(&r, p);
         // β = R⁻¹ Qᵀy (in parameter order), (XᵀWX)⁻¹ = R⁻¹ R⁻ᵀ.
         let mut beta_p = [0.0f64; 3];
-        for i in 0..p {
-            beta_p[i] = (i..p).map(|k| rinv[i][k] * qty[k]).sum();
+        for (i, (b, row)) in beta_p.iter_mut().zip(rinv.iter()).enumerate().take(p) {
+            *b = row
+                .iter()
+                .zip(qty.iter())
+                .take(p)
+                .skip(i)
+                .map(|(r, q)| r * q)
+                .sum();
         }
         let mut cov_p = [[0.0f64; 3]; 3];
-        for i in 0..p {
-            for j in 0..p {
-                cov_p[i][j] = (i.max(j)..p).map(|k| rinv[i][k] * rinv[j][k]).sum();
+        for (i, (cov_row, ri)) in cov_p.iter_mut().zip(rinv.iter()).enumerate().take(p) {
+            for (j, (cell, rj)) in cov_row.iter_mut().zip(rinv.iter()).enumerate().take(p) {
+                *cell = ri
+                    .iter()
+                    .zip(rj.iter())
+                    .take(p)
+                    .skip(i.max(j))
+                    .map(|(a, b)| a * b)
+                    .sum();
             }
         }
         // Map parameter order to powers of t.
         let mut beta = [0.0f64; 3];
         let mut xtwx_inv = [0.0f64; 6];
-        for (i, &ki) in pw.iter().enumerate() {
-            beta[ki] = beta_p[i];
-            for (j, &kj) in pw.iter().enumerate() {
+        for ((&ki, &b), cov_row) in pw.iter().zip(beta_p.iter()).zip(cov_p.iter()) {
+            if let Some(slot) = beta.get_mut(ki) {
+                *slot = b;
+            }
+            for (&kj, &c) in pw.iter().zip(cov_row.iter()) {
                 if let Some(cell) = xtwx_inv.get_mut(packed(ki, kj)) {
-                    *cell = cov_p[i][j];
+                    *cell = c;
                 }
             }
         }
-        beta[0] += y_centre;
+        let [b0, ..] = &mut beta;
+        *b0 += y_centre;
 
         let mut fit = Fit {
             model,
@@ -352,15 +368,9 @@ impl Fit {
         let j = self.jacobian();
         let s2 = self.residual_variance();
         let mut out = [[0.0; 3]; 3];
-        for (a, row) in out.iter_mut().enumerate() {
-            for (b, cell) in row.iter_mut().enumerate() {
-                let mut acc = 0.0;
-                for k in 0..3 {
-                    for l in 0..3 {
-                        acc += j[a][k] * self.inv(k, l) * j[b][l];
-                    }
-                }
-                *cell = s2 * acc;
+        for (ja, row) in j.iter().zip(out.iter_mut()) {
+            for (jb, cell) in j.iter().zip(row.iter_mut()) {
+                *cell = s2 * self.quadratic_form(ja, jb);
             }
         }
         out
@@ -369,11 +379,11 @@ impl Fit {
     /// Standard errors of [c0, c1, c2] (0 for unused coefficients).
     pub fn standard_errors(&self) -> [f64; 3] {
         let c = self.covariance();
-        [
-            math::sqrt(c[0][0].max(0.0)),
-            math::sqrt(c[1][1].max(0.0)),
-            math::sqrt(c[2][2].max(0.0)),
-        ]
+        let mut se = [0.0; 3];
+        for (k, (s, row)) in se.iter_mut().zip(c.iter()).enumerate() {
+            *s = math::sqrt(row.get(k).copied().unwrap_or(0.0).max(0.0));
+        }
+        se
     }
 
     /// Weighted residual sum of squares Σ wᵢ (yᵢ - ŷᵢ)² (weights normalised to sum to n).
@@ -416,7 +426,8 @@ impl Fit {
     /// dy/dx of the fitted curve at `x`.
     pub fn slope_at(&self, x: f64) -> f64 {
         let t = (x - self.shift) / self.scale;
-        (self.beta[1] + 2.0 * self.beta[2] * t) / self.scale
+        let [_, b1, b2] = self.beta;
+        (b1 + 2.0 * b2 * t) / self.scale
     }
 
     /// The x at which the fitted curve reaches `y`, on the rising branch of the curve (the
@@ -458,13 +469,18 @@ impl Fit {
     /// φ(x)ᵀ (XᵀWX)⁻¹ φ(x) in the centred basis (the leverage of a point of unit weight).
     pub(crate) fn unscaled_leverage(&self, x: f64) -> f64 {
         let b = basis((x - self.shift) / self.scale);
+        self.quadratic_form(&b, &b).max(0.0)
+    }
+
+    /// Σ_k Σ_l a_k·inv(k, l)·b_l, summed in row order.
+    fn quadratic_form(&self, a: &[f64; 3], b: &[f64; 3]) -> f64 {
         let mut acc = 0.0;
-        for k in 0..3 {
-            for l in 0..3 {
-                acc += b[k] * self.inv(k, l) * b[l];
+        for (k, &ak) in a.iter().enumerate() {
+            for (l, &bl) in b.iter().enumerate() {
+                acc += ak * self.inv(k, l) * bl;
             }
         }
-        acc.max(0.0)
+        acc
     }
 
     /// Factor that turns a raw weight into the normalised weight the fit used (n / Σw).
@@ -498,24 +514,34 @@ fn givens_update(
     p: usize,
 ) {
     let p = p.min(3);
-    for j in 0..p {
-        let vj = v[j];
-        if vj == 0.0 {
+    for (j, (row, q)) in r.iter_mut().zip(qty.iter_mut()).enumerate().take(p) {
+        // This row's diagonal and the entries right of it, against v's tail from j.
+        let (Some((rjj, r_rest)), Some((vj, v_rest))) = (
+            row.get_mut(j..).and_then(|s| s.split_first_mut()),
+            v.get_mut(j..).and_then(|s| s.split_first_mut()),
+        ) else {
+            break;
+        };
+        if *vj == 0.0 {
             continue;
         }
-        let rjj = r[j][j];
-        let h = math::sqrt(rjj * rjj + vj * vj);
-        let (c, s) = (rjj / h, vj / h);
-        r[j][j] = h;
-        for k in j + 1..p {
-            let rk = r[j][k];
-            r[j][k] = c * rk + s * v[k];
-            v[k] = c * v[k] - s * rk;
+        let h = math::sqrt(*rjj * *rjj + *vj * *vj);
+        let (c, s) = (*rjj / h, *vj / h);
+        *rjj = h;
+        for (rk, vk) in r_rest.iter_mut().zip(v_rest.iter_mut()).take(p - j - 1) {
+            let old = *rk;
+            *rk = c * old + s * *vk;
+            *vk = c * *vk - s * old;
         }
-        let q = qty[j];
-        qty[j] = c * q + s * *z;
-        *z = c * *z - s * q;
+        let old = *q;
+        *q = c * old + s * *z;
+        *z = c * *z - s * old;
     }
+}
+
+/// Entry (i, k) of a 3×3 matrix (0 outside it).
+fn at(m: &[[f64; 3]; 3], i: usize, k: usize) -> f64 {
+    m.get(i).and_then(|row| row.get(k)).copied().unwrap_or(0.0)
 }
 
 /// Inverse of the p×p upper-triangular r (nonzero diagonal checked by the caller).
@@ -523,10 +549,22 @@ fn upper_inverse(r: &[[f64; 3]; 3], p: usize) -> [[f64; 3]; 3] {
     let p = p.min(3);
     let mut inv = [[0.0f64; 3]; 3];
     for j in (0..p).rev() {
-        inv[j][j] = 1.0 / r[j][j];
+        let mut column = [0.0f64; 3];
+        if let Some(d) = column.get_mut(j) {
+            *d = 1.0 / at(r, j, j);
+        }
         for i in (0..j).rev() {
-            let s: f64 = (i + 1..=j).map(|k| r[i][k] * inv[k][j]).sum();
-            inv[i][j] = -s / r[i][i];
+            let s: f64 = (i + 1..=j)
+                .map(|k| at(r, i, k) * column.get(k).copied().unwrap_or(0.0))
+                .sum();
+            if let Some(cell) = column.get_mut(i) {
+                *cell = -s / at(r, i, i);
+            }
+        }
+        for (row, &c) in inv.iter_mut().zip(column.iter()) {
+            if let Some(cell) = row.get_mut(j) {
+                *cell = c;
+            }
         }
     }
     inv

@@ -119,12 +119,21 @@ pub fn new_rig() -> Result<SimRig, Failure> {
     Ok(SimRig::new(bench))
 }
 
+/// Puts `rig` back into its power-up state. Never inlined: the fresh simulator (a few hundred
+/// bytes) is built in this frame, beside the measurement's, not inside it, so the stack
+/// figures count the measurement and not the simulator's construction.
+#[inline(never)]
+pub fn reset(rig: &RefCell<SimRig>) -> Result<(), Failure> {
+    *rig.try_borrow_mut().map_err(|_| Failure::Sim)? = new_rig()?;
+    Ok(())
+}
+
 /// Runs the whole pipeline on `rig`, reset to its power-up state first. The caller owns the
 /// rig's storage (the firmware keeps it in a static, so the stack figures count the
 /// measurement, not the simulator's state).
 #[inline(never)] // its frame must lie below the caller's stack pointer for the stack figure
 pub fn measure(rig: &RefCell<SimRig>) -> Result<Outcome, Failure> {
-    *rig.try_borrow_mut().map_err(|_| Failure::Sim)? = new_rig()?;
+    reset(rig)?;
     let mut seq = Sequencer::new(SimRig::hardware(rig), SequenceConfig::default())
         .map_err(|_| Failure::Sequence("sequencer configuration"))?;
     let cancel = &mut NeverCancel;
@@ -359,7 +368,7 @@ pub fn check(outcome: &Result<Outcome, Failure>, out: &mut impl Write) -> bool {
 /// power-up state first, for the stack figure: the sample's absorbance.
 #[inline(never)] // its frame must lie below the caller's stack pointer for the stack figure
 pub fn single_measurement(rig: &RefCell<SimRig>) -> Result<f32, Failure> {
-    *rig.try_borrow_mut().map_err(|_| Failure::Sim)? = new_rig()?;
+    reset(rig)?;
     let mut seq = Sequencer::new(SimRig::hardware(rig), SequenceConfig::default())
         .map_err(|_| Failure::Sequence("sequencer configuration"))?;
     let blank = seq

@@ -281,6 +281,7 @@ pub struct PhotometricResult {
     pub flags: Flags,
 }
 
+#[inline(never)] // four uses: one copy
 fn checked(level: &Level) -> Result<Level, PhotometryError> {
     if level.net.is_finite() && level.std_error.is_finite() && level.std_error >= 0.0 {
         Ok(*level)

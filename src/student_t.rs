@@ -223,18 +223,19 @@ fn upper_quantile(df: u32, q: f64) -> Result<f64, StudentTError> {
         return Ok(0.0);
     }
     let nu = f64::from(df);
+    let start = cornish_fisher(nu, normal_upper_quantile(q));
     let t = match df {
         // ν = 2: P(T > t) = ½ - t / (2 √(2 + t²)), so t = (1 - 2q) / √(2 q (1 - q)).
         2 => (1.0 - 2.0 * q) / math::sqrt(2.0 * q * (1.0 - q)),
-        _ if df > 1000 => cornish_fisher(nu, normal_upper_quantile(q)),
-        _ => newton(nu, q),
+        _ if df > 1000 => start,
+        _ => newton(nu, q, start),
     };
     Ok(t)
 }
 
-/// Safeguarded Newton iteration on tail(t) - q = 0 over a bracket [lo, hi].
-fn newton(nu: f64, q: f64) -> f64 {
-    let mut t = cornish_fisher(nu, normal_upper_quantile(q));
+/// Safeguarded Newton iteration on tail(t) - q = 0 over a bracket [lo, hi], from `start`.
+fn newton(nu: f64, q: f64, start: f64) -> f64 {
+    let mut t = start;
     if !(t.is_finite() && t > 0.0) {
         t = 1.0;
     }

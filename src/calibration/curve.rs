@@ -130,6 +130,7 @@ impl PointSource for StandardsSource<'_> {
     fn count(&self) -> usize {
         self.standards.len()
     }
+    #[inline(never)] // the fit reads the points in three passes: one copy
     fn point(&self, index: usize) -> Option<Point> {
         let s = self.standards.get(index)?;
         Some(Point {

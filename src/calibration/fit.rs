@@ -263,25 +263,18 @@ impl Fit {
         let rinv = upper_inverse(&r, p);
         // β = R⁻¹ Qᵀy (in parameter order), (XᵀWX)⁻¹ = R⁻¹ R⁻ᵀ.
         let mut beta_p = [0.0f64; 3];
-        for (i, (b, row)) in beta_p.iter_mut().zip(rinv.iter()).enumerate().take(p) {
-            *b = row
-                .iter()
-                .zip(qty.iter())
-                .take(p)
-                .skip(i)
-                .map(|(r, q)| r * q)
-                .sum();
-        }
         let mut cov_p = [[0.0f64; 3]; 3];
-        for (i, (cov_row, ri)) in cov_p.iter_mut().zip(rinv.iter()).enumerate().take(p) {
-            for (j, (cell, rj)) in cov_row.iter_mut().zip(rinv.iter()).enumerate().take(p) {
-                *cell = ri
-                    .iter()
-                    .zip(rj.iter())
-                    .take(p)
-                    .skip(i.max(j))
-                    .map(|(a, b)| a * b)
+        for i in 0..p {
+            put1(
+                &mut beta_p,
+                i,
+                (i..p).map(|k| at(&rinv, i, k) * get1(&qty, k)).sum(),
+            );
+            for j in 0..p {
+                let c = (i.max(j)..p)
+                    .map(|k| at(&rinv, i, k) * at(&rinv, j, k))
                     .sum();
+                put(&mut cov_p, i, j, c);
             }
         }
         // Map parameter order to powers of t.
@@ -514,28 +507,35 @@ fn givens_update(
     p: usize,
 ) {
     let p = p.min(3);
-    for (j, (row, q)) in r.iter_mut().zip(qty.iter_mut()).enumerate().take(p) {
-        // This row's diagonal and the entries right of it, against v's tail from j.
-        let (Some((rjj, r_rest)), Some((vj, v_rest))) = (
-            row.get_mut(j..).and_then(|s| s.split_first_mut()),
-            v.get_mut(j..).and_then(|s| s.split_first_mut()),
-        ) else {
-            break;
-        };
-        if *vj == 0.0 {
+    for j in 0..p {
+        let vj = get1(v, j);
+        if vj == 0.0 {
             continue;
         }
-        let h = math::sqrt(*rjj * *rjj + *vj * *vj);
-        let (c, s) = (*rjj / h, *vj / h);
-        *rjj = h;
-        for (rk, vk) in r_rest.iter_mut().zip(v_rest.iter_mut()).take(p - j - 1) {
-            let old = *rk;
-            *rk = c * old + s * *vk;
-            *vk = c * *vk - s * old;
+        let rjj = at(r, j, j);
+        let h = math::sqrt(rjj * rjj + vj * vj);
+        let (c, s) = (rjj / h, vj / h);
+        put(r, j, j, h);
+        for k in j + 1..p {
+            let (rk, vk) = (at(r, j, k), get1(v, k));
+            put(r, j, k, c * rk + s * vk);
+            put1(v, k, c * vk - s * rk);
         }
-        let old = *q;
-        *q = c * old + s * *z;
-        *z = c * *z - s * old;
+        let q = get1(qty, j);
+        put1(qty, j, c * q + s * *z);
+        *z = c * *z - s * q;
+    }
+}
+
+/// Entry `i` of a 3-vector (0 outside it).
+fn get1(v: &[f64; 3], i: usize) -> f64 {
+    v.get(i).copied().unwrap_or(0.0)
+}
+
+/// Sets entry `i` of a 3-vector (nothing outside it).
+fn put1(v: &mut [f64; 3], i: usize, x: f64) {
+    if let Some(cell) = v.get_mut(i) {
+        *cell = x;
     }
 }
 
@@ -544,27 +544,22 @@ fn at(m: &[[f64; 3]; 3], i: usize, k: usize) -> f64 {
     m.get(i).and_then(|row| row.get(k)).copied().unwrap_or(0.0)
 }
 
+/// Sets entry (i, k) of a 3×3 matrix (nothing outside it).
+fn put(m: &mut [[f64; 3]; 3], i: usize, k: usize, x: f64) {
+    if let Some(cell) = m.get_mut(i).and_then(|row| row.get_mut(k)) {
+        *cell = x;
+    }
+}
+
 /// Inverse of the p×p upper-triangular r (nonzero diagonal checked by the caller).
 fn upper_inverse(r: &[[f64; 3]; 3], p: usize) -> [[f64; 3]; 3] {
     let p = p.min(3);
     let mut inv = [[0.0f64; 3]; 3];
     for j in (0..p).rev() {
-        let mut column = [0.0f64; 3];
-        if let Some(d) = column.get_mut(j) {
-            *d = 1.0 / at(r, j, j);
-        }
+        put(&mut inv, j, j, 1.0 / at(r, j, j));
         for i in (0..j).rev() {
-            let s: f64 = (i + 1..=j)
-                .map(|k| at(r, i, k) * column.get(k).copied().unwrap_or(0.0))
-                .sum();
-            if let Some(cell) = column.get_mut(i) {
-                *cell = -s / at(r, i, i);
-            }
-        }
-        for (row, &c) in inv.iter_mut().zip(column.iter()) {
-            if let Some(cell) = row.get_mut(j) {
-                *cell = c;
-            }
+            let s: f64 = (i + 1..=j).map(|k| at(r, i, k) * at(&inv, k, j)).sum();
+            put(&mut inv, i, j, -s / at(r, i, i));
         }
     }
     inv

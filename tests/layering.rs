@@ -74,7 +74,9 @@ fn dependencies_run_one_way() {
     visit(&src, &mut files);
     let mut violations = Vec::new();
     for file in &files {
-        let Some(from) = module_of(file, &src) else { continue };
+        let Some(from) = module_of(file, &src) else {
+            continue;
+        };
         if from == "lib" {
             continue;
         }
@@ -106,7 +108,11 @@ fn dependencies_run_one_way() {
             }
         }
     }
-    assert!(violations.is_empty(), "upward dependencies:\n{}", violations.join("\n"));
+    assert!(
+        violations.is_empty(),
+        "upward dependencies:\n{}",
+        violations.join("\n")
+    );
 }
 
 #[test]

@@ -6,7 +6,7 @@
 //! `saturated`, `low_signal`, `above_range`, `below_lod`, `below_loq`, `unstable`, `no_blank`,
 //! `no_calibration`, `no_dark`, and `stale_calibration` (an addition of lumisorb to the session
 //! format's list: a result quantified with a stored calibration that is too old or was made with
-//! another path length or method revision, see [`crate::persistence::staleness`]; a replay of a
+//! another path length or method revision, see [`crate::persistence::Staleness`]; a replay of a
 //! recorded session fits its own calibration, so it never raises this flag).
 
 use core::fmt::{self, Write};

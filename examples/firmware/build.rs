@@ -12,6 +12,10 @@ fn main() {
     let out = PathBuf::from(env::var("OUT_DIR").expect("cargo sets OUT_DIR"));
     let memory = fs::read(format!("memory-{board}.x")).expect("memory-<board>.x beside build.rs");
     fs::write(out.join("memory.x"), memory).expect("OUT_DIR is writable");
+    // cortex-m-rt's `device` feature includes a device.x with the interrupt handlers' weak
+    // aliases; every vector of src/vectors.rs is the default handler, so it is empty.
+    fs::write(out.join("device.x"), "/* no device interrupt handlers */\n")
+        .expect("OUT_DIR is writable");
     println!("cargo:rustc-link-search={}", out.display());
     println!("cargo:rustc-env=LUMISORB_BOARD={board}");
     println!("cargo:rerun-if-changed=memory-{board}.x");

@@ -44,7 +44,7 @@ impl SimRng {
         let a = splitmix64(&mut sm);
         let b = splitmix64(&mut sm);
         let mut s = [a as u32, (a >> 32) as u32, b as u32, (b >> 32) as u32];
-        if s == [0; 4] {
+        if a | b == 0 {
             // Cannot happen for SplitMix64 output in practice; kept so the state is never stuck.
             s[0] = 1;
         }

@@ -9,6 +9,7 @@
 #![no_main]
 
 mod pipeline;
+mod vectors;
 
 // With the `defmt` feature the sequencer's events go out as defmt frames over semihosting.
 #[cfg(feature = "defmt")]

@@ -330,7 +330,7 @@ pub fn checks(o: &Outcome) -> [(&'static str, bool); CHECKS] {
         .zip(o.samples.iter())
         .zip(SAMPLES.iter())
     {
-        let ok = match (s, d.known, d.name) {
+        let ok = match (s, d.known, d.sample.background_absorbance > 0.0) {
             (None, _, _) => false,
             // Check samples: recovery within 97-103 % and the known value inside the 95 % CI.
             (Some((_, q)), Some(known), _) => {
@@ -338,9 +338,9 @@ pub fn checks(o: &Outcome) -> [(&'static str, bool); CHECKS] {
                 (0.97..=1.03).contains(&recovery) && q.low < known && known < q.high
             }
             // Turbidity adds to the absorbance: the cloudy sample reads high.
-            (Some((_, q)), None, "cloudy-brook") => q.concentration > 3.0,
+            (Some((_, q)), None, true) => q.concentration > d.sample.concentration,
             // Far beyond the standards: flagged, never silently reported.
-            (Some((_, q)), None, _) => q.flags.contains(Flag::AboveRange),
+            (Some((_, q)), None, false) => q.flags.contains(Flag::AboveRange),
         };
         *slot = (d.name, ok);
     }

@@ -7,6 +7,8 @@
 #[path = "../pipeline.rs"]
 #[allow(dead_code)]
 mod pipeline;
+#[path = "../vectors.rs"]
+mod vectors;
 
 use core::cell::RefCell;
 use core::panic::PanicInfo;

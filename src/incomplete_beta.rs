@@ -85,7 +85,7 @@ fn continued_fraction(a: f64, b: f64, x: f64) -> f64 {
     let mut h = d;
     // Steps 2m (even) and 2m+1 (odd) of the fraction for m = 1, 2, ...: only their
     // coefficient differs, so one loop body serves both.
-    for step in 2..=2 * MAX_TERMS + 1 {
+    for step in 2..2 * MAX_TERMS + 2 {
         let odd = step % 2 == 1;
         let m = f64::from(step / 2);
         let m2 = 2.0 * m;

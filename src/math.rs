@@ -75,16 +75,21 @@ pub fn absf(x: f32) -> f32 {
 /// Square root (f64), correctly rounded (IEEE 754), by the digit-by-digit method: one bit of
 /// the root per step from the 53-bit significand, all in 64-bit integers. NaN and negative
 /// arguments give NaN, ±0 and +∞ give themselves.
+#[inline(never)] // one copy in flash
 pub fn sqrt(x: f64) -> f64 {
-    if x.is_nan() || x < 0.0 {
-        return f64::NAN;
-    }
-    if x == 0.0 || x.is_infinite() {
-        return x;
-    }
     const FRACTION_BITS: u32 = 52;
     const IMPLICIT: u64 = 1 << FRACTION_BITS;
+    const INFINITY: u64 = 0x7FF0_0000_0000_0000;
+    const MINUS_ZERO: u64 = 0x8000_0000_0000_0000;
     let bits = x.to_bits();
+    // On the bits (no floating-point compares): +0, -0 and +∞ give themselves; NaN and every
+    // other number with the sign bit set give NaN.
+    if bits == 0 || bits == MINUS_ZERO || bits == INFINITY {
+        return x;
+    }
+    if bits > INFINITY {
+        return f64::NAN;
+    }
     let biased = (bits >> FRACTION_BITS) as i32;
     let (mut m, mut e) = if biased == 0 {
         // Subnormal: normalise the significand so that its bit 52 is set.
@@ -99,13 +104,13 @@ pub fn sqrt(x: f64) -> f64 {
         m <<= 1;
         e -= 1;
     }
-    // root = floor(√(m·2^54)), 54 bits, from the radicand's bit pairs (those of m, then zeros);
-    // the remainder stays below 2·root + 1 < 2^55.
+    // root = floor(√(m·2^54)), 54 bits, from the radicand's bit pairs, top first: those of m
+    // (shifted to the top of `pairs`), then zeros. The remainder stays below 2·root + 1 < 2^55.
+    let mut pairs = m << (62 - FRACTION_BITS);
     let (mut root, mut rem) = (0u64, 0u64);
-    for pair in 0..=FRACTION_BITS + 1 {
-        let shift = FRACTION_BITS.checked_sub(2 * pair);
-        let two = shift.map_or(0, |s| (m >> s) & 3);
-        rem = (rem << 2) | two;
+    for _ in 0..FRACTION_BITS + 2 {
+        rem = (rem << 2) | (pairs >> 62);
+        pairs <<= 2;
         let trial = (root << 2) | 1;
         root <<= 1;
         if rem >= trial {

@@ -204,7 +204,7 @@ fn median_abs_deviation(sorted: &[u32], m: f32) -> Option<f32> {
     let mut up = sorted.iter().position(|&x| x as f32 >= m).unwrap_or(n);
     let mut down = up; // the next read below m is at down - 1
     let (mut prev, mut cur) = (0.0f32, 0.0f32);
-    for _ in 0..=n / 2 {
+    for _ in 0..n / 2 + 1 {
         let below = down.checked_sub(1).and_then(dev);
         prev = cur;
         cur = match (below, dev(up)) {
@@ -232,7 +232,7 @@ fn insertion_sort(v: &mut [u32]) {
     for i in 1..v.len() {
         let mut j = i;
         while j > 0 {
-            let Some([a, b]) = v.get_mut(j - 1..=j) else {
+            let Some([a, b]) = v.get_mut(j - 1..j + 1) else {
                 break;
             };
             if *a <= *b {

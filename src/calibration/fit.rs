@@ -558,7 +558,7 @@ fn upper_inverse(r: &[[f64; 3]; 3], p: usize) -> [[f64; 3]; 3] {
     for j in (0..p).rev() {
         put(&mut inv, j, j, 1.0 / at(r, j, j));
         for i in (0..j).rev() {
-            let s: f64 = (i + 1..=j).map(|k| at(r, i, k) * at(&inv, k, j)).sum();
+            let s: f64 = (i + 1..j + 1).map(|k| at(r, i, k) * at(&inv, k, j)).sum();
             put(&mut inv, i, j, -s / at(r, i, i));
         }
     }

@@ -141,24 +141,58 @@ for probe in size_probe size_probe_measure; do
   fi
 done
 
-echo "-- where the pipeline's flash goes (size_probe, mps2-an386; nm symbol sizes, inlined code counts where it lands)"
-arm-none-eabi-nm -C -S --size-sort "$target_dir/thumbv7em-none-eabihf/release/size_probe" |
-  awk '
+echo "-- where the pipeline's flash goes (size_probe, mps2-an386: each instruction counted for the"
+echo "   innermost source file of this repository in its inline chain, from objdump -l --inlines;"
+echo "   code with none, by its function's name; read-only data and the vector table apart)"
+probe_elf="$target_dir/thumbv7em-none-eabihf/release/size_probe"
+{
+  arm-none-eabi-objdump -d -l --inlines --no-show-raw-insn "$probe_elf"
+  echo "@ro $(section "$probe_elf" .rodata)"
+  echo "@vt $(section "$probe_elf" .vector_table)"
+  echo "@text $(section "$probe_elf" .text)"
+} | awk -v root="$root/" '
   function hex(s,   i, v) { v = 0; s = tolower(s); for (i = 1; i <= length(s); i++) v = v * 16 + index("0123456789abcdef", substr(s, i, 1)) - 1; return v }
-  $3 ~ /^[tTrR]$/ {
-    name = $4; for (i = 5; i <= NF; i++) name = name " " $i
-    g = "other (runtime, vector table, core)"
-    if (name ~ /^lumisorb::sim::/) g = "simulated photometer (lumisorb::sim)"
-    else if (name ~ /^lumisorb::instrument::/) g = "sequencer (lumisorb::instrument)"
-    else if (name ~ /^lumisorb::(calibration|quantification|limits|student_t|incomplete_beta)/) g = "calibration, quantification, t quantiles"
-    else if (name ~ /^<?lumisorb::/) g = "core photometry (counts .. photometry)"
-    else if (name ~ /^libm::/) g = "libm"
-    else if (name ~ /^compiler_builtins::|^__aeabi|^__[a-z]+[sd]f[0-9]*$/) g = "compiler_builtins (soft f64, int division)"
-    else if (name ~ /^core::slice::sort/) g = "core::slice::sort (robust medians)"
-    else if (name ~ /^size_probe::|__cortex_m_rt_main/) g = "pipeline.rs and main (library code inlined into them)"
-    sum[g] += hex($2)
+  function layer(path) {
+    if (index(path, root) != 1) return ""
+    path = substr(path, length(root) + 1)
+    if (path ~ /^src\/(calibration|quantification|limits)/) return "calibration and quantification (f64)"
+    if (path ~ /^src\/(student_t|incomplete_beta)/) return "t and F distributions (f64 special functions)"
+    if (path ~ /^src\/math/) return "math door (square root; libm code inlined through it)"
+    if (path ~ /^src\/instrument/) return "sequencer (instrument)"
+    if (path ~ /^src\/sim/) return "simulated photometer (sim)"
+    if (path ~ /^src\//) return "core photometry (accumulator, robust, net_signal, photometry)"
+    return "the demo application (pipeline.rs, probe main)"
   }
-  END { for (g in sum) printf "%8d  %s\n", sum[g], g }' | sort -rn
+  function by_name(fn) {
+    if (fn ~ /libm/) return "libm (not inlined)"
+    if (fn ~ /compiler_builtins|^__|^mem/) return "compiler_builtins (soft-float f64, memcpy)"
+    return "runtime and core (cortex-m-rt, not inlined core code)"
+  }
+  function flush(next_addr,   size, g, i) {
+    if (!have) return
+    size = next_addr - addr; if (size > 4 || size < 0) size = 2
+    g = ""
+    for (i = 1; i <= n && g == ""; i++) g = layer(chain[i])
+    if (g == "") g = by_name(fn)
+    sum[g] += size; have = 0
+  }
+  /^@ro / { sum["read-only data (.rodata)"] += $2; next }
+  /^@vt / { sum["vector table"] += $2; next }
+  /^@text / { text = $2; next }
+  /^[0-9a-f]+ <.*>:$/ { flush(hex($1)); fn = substr($2, 2, length($2) - 3); n = 0; fresh = 1; next }
+  /^(inlined by )?\/[^ ]*:[0-9]+/ {
+    line = $0; inl = sub(/^inlined by /, "", line); sub(/:[0-9]+.*$/, "", line)
+    if (fresh) { n = (inl && n > 0) ? 1 : 0; fresh = 0 }
+    chain[++n] = line; next
+  }
+  /^ +[0-9a-f]+:\t/ { a = $1; sub(/:$/, "", a); flush(hex(a)); addr = hex(a); have = 1; fresh = 1; next }
+  END {
+    flush(addr + 2)
+    for (g in sum) if (g !~ /^(read-only|vector)/) code += sum[g]
+    sum["alignment padding between functions"] = text - code
+    for (g in sum) { printf "%8d  %s\n", sum[g], g; total += sum[g] }
+    printf "%8d  total (= flash)\n", total
+  }' | sort -rn
 
 defmt_flash=$(( $(section "$defmt_elf" .vector_table) + $(section "$defmt_elf" .text) + $(section "$defmt_elf" .rodata) + $(section "$defmt_elf" .data) ))
 echo "firmware with defmt logging: $defmt_flash bytes flash (without: ${firmware_flash:-?})"

@@ -20,6 +20,13 @@ const LOG_TOL: f32 = if cfg!(feature = "fast-math") {
     2e-6
 };
 
+/// How far the slope of the log10 in use may differ from the true one (1: libm).
+const SLOPE_FACTOR: f32 = if cfg!(feature = "fast-math") {
+    10.0
+} else {
+    1.0
+};
+
 /// Net signal of a measurement with `n` interleaved dark/lit pairs, a small deterministic
 /// ripple on each read, an offset added to every read, and an optional reference detector.
 fn measure(lit: u32, dark: u32, offset: u32, reference: Option<u32>) -> NetSignal {
@@ -80,8 +87,10 @@ proptest! {
         let a_ref = absorbance(&measure(blank, 800, 0, Some(r)), &measure(sample, 800, 0, Some(r)));
         let scaled = |x: u32| (x as f64 * k).round() as u32;
         let a_k = absorbance(&measure(blank, 800, 0, Some(r)), &measure(scaled(sample), 800, 0, Some(scaled(r))));
-        // Only the rounding of the scaled counts to integers remains.
-        let tol = 2.0 / (sample as f32 * std::f32::consts::LN_10) + 1e-5;
+        // Only the rounding of the scaled counts to integers remains; micromath's log10
+        // (fast-math) is a piecewise approximation whose slope is off by up to a few times, so
+        // the same rounding can move its result further.
+        let tol = SLOPE_FACTOR * 2.0 / (sample as f32 * std::f32::consts::LN_10) + 1e-5;
         prop_assert!((a_ref - a_k).abs() < tol, "{} vs {}", a_ref, a_k);
     }
 }

@@ -149,14 +149,11 @@ pub(crate) struct Fitted {
     pub(crate) sigma_source: SigmaSource,
     /// t(ν, 0.975) for the confidence intervals.
     pub(crate) t95: f64,
-    /// Critical |t| of the suspicious-standard test (None if ν < 2).
-    pub(crate) outlier_t: Option<f64>,
     pub(crate) lod: f32,
     pub(crate) loq: f32,
     pub(crate) range: (f32, f32),
     /// Mean number of reads per standard (scales the sample's read variance).
     pub(crate) mean_replicates: f32,
-    pub(crate) lack_of_fit: LackOfFit,
 }
 
 /// A fitted calibration curve with its statistics and limits.
@@ -281,7 +278,9 @@ impl<const N: usize> Calibration<N> {
 
     /// The lack-of-fit verdict (needs replicated standards).
     pub fn lack_of_fit(&self) -> LackOfFit {
-        self.inner.lack_of_fit
+        // Computed on demand from the standards and the fit (deterministic, so the same every
+        // call): a device that never asks for it links no lack-of-fit code.
+        lack_of_fit::lack_of_fit(self.set.standards(), self.inner.weighting, &self.inner.fit)
     }
 
     /// Residuals, studentized residuals and suspicious-standard flags, in set order.
@@ -290,7 +289,11 @@ impl<const N: usize> Calibration<N> {
             standards: self.set.standards(),
             weighting: self.inner.weighting,
             fit: &self.inner.fit,
-            threshold: self.inner.outlier_t,
+            // Critical |t| of the suspicious-standard test (None if ν < 2), on demand.
+            threshold: statistics::outlier_threshold(
+                self.inner.fit.points(),
+                self.inner.fit.degrees_of_freedom(),
+            ),
             next: 0,
         }
     }
@@ -443,12 +446,10 @@ pub(crate) fn fit_standards(
         weighting,
         sigma_source,
         t95,
-        outlier_t: statistics::outlier_threshold(n, dof),
         lod,
         loq,
         range: (lo, hi),
         mean_replicates,
-        lack_of_fit: lack_of_fit::lack_of_fit(standards, weighting, &fit),
     })
 }
 

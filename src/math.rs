@@ -7,7 +7,8 @@
 //! and `tests/precision_contract.rs`). The square root is exact in both modes: correctly
 //! rounded, so bit for bit what libm's gives, from [`sqrt`]'s digit-by-digit root (smaller in
 //! flash than libm's table-driven one, which matters more than its speed here).
-//! The other f64 functions, used by calibration where accuracy needs them, come from `libm`.
+//! The f64 `ln` and `exp` of the calibration statistics are own code within a few ulp (smaller
+//! than libm's on a single-precision FPU; tested against libm); `log10` and `abs` come from `libm`.
 
 /// Base-10 logarithm (f32, device path).
 #[inline]
@@ -131,16 +132,87 @@ pub fn log10(x: f64) -> f64 {
     libm::log10(x)
 }
 
-/// Natural logarithm (f64, always libm).
-#[inline]
-pub fn ln(x: f64) -> f64 {
-    libm::log(x)
+/// ln 2 split in two: the high part has its low bits zero, so k·LN2_HI is exact for |k| < 2^11
+/// (the split of fdlibm's `e_exp.c` and `e_log.c`, from memory).
+const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
+/// ln 2 - LN2_HI.
+const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
+
+/// 2^k for -1022 <= k <= 1023 (a normal number), from the bits.
+fn pow2(k: i32) -> f64 {
+    f64::from_bits(((k + 1023) as u64) << 52)
 }
 
-/// Exponential (f64, always libm).
-#[inline]
+/// Natural logarithm (f64), within a few ulp (own code: smaller in flash than libm's `log`,
+/// which matters on a core whose FPU is single precision; tested against libm).
+///
+/// x = 2^k·m with √½ <= m < √2, ln m = 2·atanh(s) = 2·(s + s³/3 + s⁵/5 + ...), s = (m-1)/(m+1),
+/// |s| <= 0.172: eleven terms leave a truncation error below 1e-17. Negative x and NaN give
+/// NaN, ±0 gives -∞, +∞ gives +∞.
+#[inline(never)] // one copy in flash
+pub fn ln(x: f64) -> f64 {
+    const INFINITY: u64 = 0x7FF0_0000_0000_0000;
+    const MINUS_ZERO: u64 = 0x8000_0000_0000_0000;
+    const FRACTION: u64 = (1 << 52) - 1;
+    let mut bits = x.to_bits();
+    // On the bits: ±0, then +∞, NaN and everything with the sign bit set.
+    if bits == 0 || bits == MINUS_ZERO {
+        return f64::NEG_INFINITY;
+    }
+    if bits >= INFINITY {
+        return if bits == INFINITY { x } else { f64::NAN };
+    }
+    let mut k = -1023i32;
+    if bits < 1 << 52 {
+        // Subnormal: scale by 2^54 first.
+        bits = (x * pow2(54)).to_bits();
+        k -= 54;
+    }
+    k += (bits >> 52) as i32;
+    // m in [1, 2), or in [½, 1) when its fraction is beyond √2's: m in [√½, √2).
+    let fraction = bits & FRACTION;
+    let m = if fraction > core::f64::consts::SQRT_2.to_bits() & FRACTION {
+        k += 1;
+        f64::from_bits(fraction | (1022 << 52))
+    } else {
+        f64::from_bits(fraction | (1023 << 52))
+    };
+    let s = (m - 1.0) / (m + 1.0);
+    let s2 = s * s;
+    let mut series = 0.0;
+    for j in (0..11u32).rev() {
+        series = series * s2 + 1.0 / f64::from(2 * j + 1);
+    }
+    let kf = f64::from(k);
+    kf * LN2_HI + (2.0 * s * series + kf * LN2_LO)
+}
+
+/// Exponential (f64), within a few ulp (own code: smaller in flash than libm's `exp`; tested
+/// against libm).
+///
+/// x = k·ln 2 + r with |r| <= ½·ln 2 + tiny, e^r by its Taylor series to r¹³ (truncation error
+/// below 1e-17 relative), times 2^k. NaN gives NaN, beyond the range ∞ or 0.
+#[inline(never)] // one copy in flash
 pub fn exp(x: f64) -> f64 {
-    libm::exp(x)
+    // 1.5·2^52: adding it rounds |t| < 2^31 to the nearest integer, held in the low bits.
+    const ROUNDER: f64 = 6_755_399_441_055_744.0;
+    if !(x <= 709.782_712_893_384) {
+        return if x.is_nan() { x } else { f64::INFINITY };
+    }
+    if x < -745.2 {
+        return 0.0;
+    }
+    let big = x * core::f64::consts::LOG2_E + ROUNDER;
+    let k = big.to_bits() as u32 as i32;
+    let kf = big - ROUNDER;
+    let r = (x - kf * LN2_HI) - kf * LN2_LO;
+    let mut e = 1.0;
+    for i in (1..14u32).rev() {
+        e = 1.0 + e * r / f64::from(i);
+    }
+    // 2^k in two normal factors (k from -1075 to 1024).
+    let half = k / 2;
+    e * pow2(half) * pow2(k - half)
 }
 
 /// Absolute value (f64).
@@ -158,6 +230,49 @@ pub fn pow(x: f64, y: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Distance in ulp between two finite f64 of the same sign.
+    fn ulps(a: f64, b: f64) -> u64 {
+        a.to_bits().abs_diff(b.to_bits())
+    }
+
+    #[test]
+    fn ln_and_exp_agree_with_libm() {
+        // Against the libm crate (a port of musl/fdlibm, correctly rounded to within 1 ulp):
+        // own ln and exp within 4 ulp over a logarithmic sweep, subnormals and the range ends.
+        let mut x = 1e-310f64;
+        while x < 1e300 {
+            for v in [x, x * 1.000_000_1, 1.0 + x.min(0.5)] {
+                assert!(
+                    ulps(ln(v), libm::log(v)) <= 4 || (ln(v) - libm::log(v)).abs() < 1e-16,
+                    "ln {v}"
+                );
+            }
+            x *= 1.37;
+        }
+        let mut y = -745.0f64;
+        while y < 709.7 {
+            for v in [y, y + 0.123_456_7] {
+                let (a, b) = (exp(v), libm::exp(v));
+                assert!(
+                    ulps(a, b) <= 4 || (b < 1e-300 && (a - b).abs() <= 1e-322),
+                    "exp {v}: {a} vs {b}"
+                );
+            }
+            y += 0.731;
+        }
+        for v in [0.0, 1e-300, -1e-300, 0.5, -0.5, 1.0, 2.0, 10.0, -20.0] {
+            assert!(ulps(exp(v), libm::exp(v)) <= 4, "exp {v}");
+        }
+        assert_eq!(exp(0.0), 1.0);
+        assert_eq!(ln(1.0), 0.0);
+        assert!(ln(-1.0).is_nan() && ln(f64::NAN).is_nan() && exp(f64::NAN).is_nan());
+        assert_eq!(ln(0.0), f64::NEG_INFINITY);
+        assert_eq!(ln(f64::INFINITY), f64::INFINITY);
+        assert_eq!(exp(710.0), f64::INFINITY);
+        assert_eq!(exp(-746.0), 0.0);
+        assert_eq!(exp(f64::NEG_INFINITY), 0.0);
+    }
 
     #[test]
     fn decade_logs() {

@@ -134,8 +134,10 @@ pub fn log10(x: f64) -> f64 {
 
 /// ln 2 split in two: the high part has its low bits zero, so k·LN2_HI is exact for |k| < 2^11
 /// (the split of fdlibm's `e_exp.c` and `e_log.c`, from memory).
+#[allow(clippy::excessive_precision)] // digits as in fdlibm
 const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
 /// ln 2 - LN2_HI.
+#[allow(clippy::excessive_precision)] // digits as in fdlibm
 const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
 
 /// 2^k for -1022 <= k <= 1023 (a normal number), from the bits.
@@ -196,6 +198,7 @@ pub fn ln(x: f64) -> f64 {
 pub fn exp(x: f64) -> f64 {
     // 1.5·2^52: adding it rounds |t| < 2^31 to the nearest integer, held in the low bits.
     const ROUNDER: f64 = 6_755_399_441_055_744.0;
+    #[allow(clippy::neg_cmp_op_on_partial_ord)] // NaN takes this branch too: one compare
     if !(x <= 709.782_712_893_384) {
         return if x.is_nan() { x } else { f64::INFINITY };
     }

@@ -4,6 +4,9 @@
 #![allow(dead_code)]
 
 use core::hint::black_box;
+use core::panic::PanicInfo;
+
+use cortex_m_semihosting::debug;
 
 use lumisorb::calibration::{Calibration, CalibrationSet, Model, Standard, Weighting};
 use lumisorb::persistence::{
@@ -128,4 +131,20 @@ pub fn session_ops(store: &mut Store) -> Option<()> {
     let meta = lumisorb::session::Metadata::new(black_box(65_535));
     let summary = lumisorb::persistence::export_session(store, Count(0), &meta).ok()?;
     (summary.exported == 4).then_some(())
+}
+
+/// Ends the emulated run: exit status 0 when `ok`, 1 otherwise.
+pub fn exit(ok: bool) -> ! {
+    debug::exit(if ok {
+        debug::EXIT_SUCCESS
+    } else {
+        debug::EXIT_FAILURE
+    });
+    #[allow(clippy::empty_loop)]
+    loop {}
+}
+
+#[panic_handler]
+fn panic(_: &PanicInfo) -> ! {
+    exit(false)
 }

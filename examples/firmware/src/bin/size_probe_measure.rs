@@ -7,14 +7,14 @@
 #[path = "../pipeline.rs"]
 #[allow(dead_code)]
 mod pipeline;
+#[path = "../probe_exit.rs"]
+mod probe_exit;
 #[path = "../vectors.rs"]
 mod vectors;
 
 use core::cell::RefCell;
-use core::panic::PanicInfo;
 
 use cortex_m_rt::entry;
-use cortex_m_semihosting::debug;
 
 #[entry]
 fn main() -> ! {
@@ -22,24 +22,9 @@ fn main() -> ! {
         .ok()
         .and_then(|r| cortex_m::singleton!(: RefCell<lumisorb::sim::SimRig> = RefCell::new(r)))
     else {
-        debug::exit(debug::EXIT_FAILURE);
-        #[allow(clippy::empty_loop)]
-        loop {}
+        probe_exit::exit(false)
     };
     // The demo dye at 2 units reads about A = 0.45 (see the firmware's report).
     let ok = matches!(pipeline::single_measurement(rig), Ok(a) if a > 0.40 && a < 0.50);
-    debug::exit(if ok {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
-    #[allow(clippy::empty_loop)]
-    loop {}
-}
-
-#[panic_handler]
-fn panic(_: &PanicInfo) -> ! {
-    debug::exit(debug::EXIT_FAILURE);
-    #[allow(clippy::empty_loop)]
-    loop {}
+    probe_exit::exit(ok)
 }

@@ -6,10 +6,7 @@
 #[path = "../common.rs"]
 mod common;
 
-use core::panic::PanicInfo;
-
 use cortex_m_rt::entry;
-use cortex_m_semihosting::debug;
 use embedded_storage::nor_flash::{NorFlash, ReadNorFlash};
 
 #[entry]
@@ -20,18 +17,5 @@ fn main() -> ! {
         && flash.write(0, &[1; 8]).is_ok()
         && flash.read(0, &mut word).is_ok()
         && common::calibration().is_some();
-    debug::exit(if ok {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
-    #[allow(clippy::empty_loop)]
-    loop {}
-}
-
-#[panic_handler]
-fn panic(_: &PanicInfo) -> ! {
-    debug::exit(debug::EXIT_FAILURE);
-    #[allow(clippy::empty_loop)]
-    loop {}
+    common::exit(ok)
 }

@@ -7,10 +7,9 @@
 mod common;
 
 use core::fmt::Write;
-use core::panic::PanicInfo;
 
 use cortex_m_rt::entry;
-use cortex_m_semihosting::{debug, hio};
+use cortex_m_semihosting::hio;
 
 const PAINT: u32 = 0x5AA5_C33C;
 
@@ -82,18 +81,5 @@ fn main() -> ! {
             );
         }
     }
-    debug::exit(if ok {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
-    #[allow(clippy::empty_loop)]
-    loop {}
-}
-
-#[panic_handler]
-fn panic(_: &PanicInfo) -> ! {
-    debug::exit(debug::EXIT_FAILURE);
-    #[allow(clippy::empty_loop)]
-    loop {}
+    common::exit(ok)
 }

@@ -5,10 +5,7 @@
 #[path = "../common.rs"]
 mod common;
 
-use core::panic::PanicInfo;
-
 use cortex_m_rt::entry;
-use cortex_m_semihosting::debug;
 
 #[entry]
 fn main() -> ! {
@@ -17,18 +14,5 @@ fn main() -> ! {
 
         Some(())
     });
-    debug::exit(if ok.is_some() {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
-    #[allow(clippy::empty_loop)]
-    loop {}
-}
-
-#[panic_handler]
-fn panic(_: &PanicInfo) -> ! {
-    debug::exit(debug::EXIT_FAILURE);
-    #[allow(clippy::empty_loop)]
-    loop {}
+    common::exit(ok.is_some())
 }
